@@ -1,0 +1,2 @@
+//! The `lookout` command (being built).
+fn main() {}

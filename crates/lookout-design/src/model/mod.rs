@@ -1,0 +1,1 @@
+//! Model files: parsing and validation of the TOML model description.

@@ -1,0 +1,1 @@
+//! Numerical building blocks: discretisation, eigenvalues, observability, pole placement, Riccati equations.

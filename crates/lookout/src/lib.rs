@@ -1,0 +1,2 @@
+//! lookout runtime (being built).
+#![no_std]
