@@ -65,13 +65,19 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
             t.c.mul_add_to(&self.x, &mut predicted);
             t.d.mul_add_to(u, &mut predicted);
             let mut r = [T::ZERO; P];
-            for (j, (rj, (&yj, &pj))) in r.iter_mut().zip(y.iter().zip(predicted.iter())).enumerate() {
+            for (j, (rj, (&yj, &pj))) in
+                r.iter_mut().zip(y.iter().zip(predicted.iter())).enumerate()
+            {
                 if present.contains(j) {
                     *rj = yj - pj;
                 }
             }
             if present.is_empty() || !gate.accepts(&r, present) {
-                status.outcome = if present.is_empty() { Outcome::PredictedOnly } else { Outcome::Gated };
+                status.outcome = if present.is_empty() {
+                    Outcome::PredictedOnly
+                } else {
+                    Outcome::Gated
+                };
                 status.used = ChannelMask::NONE;
                 y_used = predicted;
                 r = [T::ZERO; P];

@@ -33,7 +33,9 @@ pub struct PredictorObserver<'t, T, const N: usize, const M: usize, const P: usi
     r: [T; P],
 }
 
-impl<'t, T: Real, const N: usize, const M: usize, const P: usize> PredictorObserver<'t, T, N, M, P> {
+impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
+    PredictorObserver<'t, T, N, M, P>
+{
     /// An observer on `tables` starting from the estimate `x0`. Costs nothing
     /// beyond copying `x0`; more than 32 outputs is a compile error.
     pub const fn new(tables: &'t PredictorTables<T, N, M, P>, x0: [T; N]) -> Self {
@@ -58,7 +60,15 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> PredictorObser
             return Status::rejected_input(P);
         }
         let plant = &self.tables.plant;
-        let (r, status) = innovation(&plant.c, &plant.d, self.tables.gate.as_ref(), &self.x, u, y, valid);
+        let (r, status) = innovation(
+            &plant.c,
+            &plant.d,
+            self.tables.gate.as_ref(),
+            &self.x,
+            u,
+            y,
+            valid,
+        );
         let mut next = [T::ZERO; N];
         plant.a.mul_add_to(&self.x, &mut next);
         plant.b.mul_add_to(u, &mut next);

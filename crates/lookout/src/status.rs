@@ -45,13 +45,21 @@ impl ChannelMask {
     /// The set with channel `j` added (unchanged for `j ≥ 32`).
     #[must_use]
     pub const fn with(self, j: usize) -> Self {
-        if j < 32 { Self(self.0 | (1u32 << j)) } else { self }
+        if j < 32 {
+            Self(self.0 | (1u32 << j))
+        } else {
+            self
+        }
     }
 
     /// The set with channel `j` removed.
     #[must_use]
     pub const fn without(self, j: usize) -> Self {
-        if j < 32 { Self(self.0 & !(1u32 << j)) } else { self }
+        if j < 32 {
+            Self(self.0 & !(1u32 << j))
+        } else {
+            self
+        }
     }
 
     /// Channels in both sets.
