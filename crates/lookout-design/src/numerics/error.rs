@@ -271,7 +271,10 @@ impl fmt::Display for NumericsError {
                 row,
                 col,
                 value,
-            } => write!(f, "matrix {matrix} has a non-finite entry {value} at ({row}, {col})"),
+            } => write!(
+                f,
+                "matrix {matrix} has a non-finite entry {value} at ({row}, {col})"
+            ),
             E::BadParameter {
                 name,
                 value,
@@ -366,7 +369,10 @@ impl fmt::Display for NumericsError {
                 cplx(eigenvalue)
             ),
             E::PoleCount { expected, actual } => {
-                write!(f, "{actual} poles requested, the state dimension needs {expected}")
+                write!(
+                    f,
+                    "{actual} poles requested, the state dimension needs {expected}"
+                )
             }
             E::PoleWithoutConjugate { index, pole } => write!(
                 f,
@@ -470,7 +476,10 @@ impl fmt::Display for NumericsWarning {
                 cplx(eigenvalue)
             ),
             W::IllConditioned { what, condition } => {
-                write!(f, "{what} is ill-conditioned (condition estimate {condition:e})")
+                write!(
+                    f,
+                    "{what} is ill-conditioned (condition estimate {condition:e})"
+                )
             }
             W::SlowConvergence { iterations } => write!(
                 f,

@@ -1,1 +1,39 @@
-//! Numerical building blocks: discretisation, eigenvalues, observability, pole placement, Riccati equations.
+//! Numerical building blocks of observer design, all on dense
+//! `nalgebra::DMatrix<f64>`:
+//!
+//! | stage | module | method |
+//! |---|---|---|
+//! | matrix exponential | [`expm`] | Higham (2005) scaling and squaring, Padé degree 3–13 |
+//! | zero-order hold, process noise | [`discretise`] | block exponentials; Van Loan (1978) |
+//! | eigenvalues | [`eig`] | Parlett–Reinsch balancing, Hessenberg, Francis double-shift QR (capped) |
+//! | observability | [`observability`] | singular values of the observability matrix; PBH test per mode |
+//! | observer pole placement | [`place`] | Kautsky–Nichols–Van Dooren (1985) method 0 on the dual pair |
+//! | steady-state Kalman filter | [`dare`] | structure-preserving doubling (Chu, Fan, Lin, Wang 2004) |
+//!
+//! Every routine checks its input (shape, finiteness, symmetry/definiteness
+//! where the math needs it), terminates by an iteration cap, never panics, and
+//! returns a [`NumericsError`] naming the matrix, the index and the failed
+//! condition with its estimate. Non-fatal findings come back as
+//! [`NumericsWarning`]s beside the result.
+//!
+//! Non-goals: sparse or structured (banded, large-scale) problems; the state
+//! dimensions met on microcontrollers are small (n ≲ 30).
+
+mod balance;
+mod checks;
+pub mod dare;
+pub mod discretise;
+pub mod eig;
+mod error;
+pub mod expm;
+pub mod observability;
+pub mod place;
+mod subspace;
+
+pub use dare::{KalmanGains, solve_filter_dare};
+pub use discretise::{van_loan_process_noise, zoh};
+pub use eig::{eigenvalues, spectral_radius};
+pub use error::{NumericsError, NumericsWarning, Result};
+pub use expm::{EXPM_NORM_LIMIT, expm};
+pub use observability::{ObservabilityReport, PbhMode, observability};
+pub use place::{Placement, place_observer_poles};
