@@ -8,11 +8,11 @@ use super::reader::{Dim, Node};
 
 /// Rust's strict and reserved keywords (edition 2024), which cannot be identifiers.
 const KEYWORDS: &[&str] = &[
-    "as", "async", "await", "break", "const", "continue", "crate", "dyn", "else", "enum",
-    "extern", "false", "fn", "for", "gen", "if", "impl", "in", "let", "loop", "match", "mod",
-    "move", "mut", "pub", "ref", "return", "self", "Self", "static", "struct", "super", "trait",
-    "true", "type", "unsafe", "use", "where", "while", "abstract", "become", "box", "do",
-    "final", "macro", "override", "priv", "try", "typeof", "unsized", "virtual", "yield",
+    "as", "async", "await", "break", "const", "continue", "crate", "dyn", "else", "enum", "extern",
+    "false", "fn", "for", "gen", "if", "impl", "in", "let", "loop", "match", "mod", "move", "mut",
+    "pub", "ref", "return", "self", "Self", "static", "struct", "super", "trait", "true", "type",
+    "unsafe", "use", "where", "while", "abstract", "become", "box", "do", "final", "macro",
+    "override", "priv", "try", "typeof", "unsized", "virtual", "yield",
 ];
 
 /// Why `s` is not a plain ASCII Rust identifier, or `None` if it is one.
@@ -24,7 +24,10 @@ pub(crate) fn identifier_problem(s: &str) -> Option<String> {
     if !(first.is_ascii_alphabetic() || first == '_') {
         return Some(format!("it starts with '{first}', not a letter or '_'"));
     }
-    if let Some(bad) = s.chars().find(|c| !(c.is_ascii_alphanumeric() || *c == '_')) {
+    if let Some(bad) = s
+        .chars()
+        .find(|c| !(c.is_ascii_alphanumeric() || *c == '_'))
+    {
         return Some(format!(
             "'{bad}' is not allowed (use ASCII letters, digits and '_')"
         ));
@@ -61,7 +64,9 @@ pub(crate) fn read_names(
         if let Some(first) = seen.insert(name.clone(), i) {
             return Err(item.fail(
                 ModelErrorKind::BadName,
-                format!("\"{name}\" is used twice (entries {first} and {i}); names must be distinct"),
+                format!(
+                    "\"{name}\" is used twice (entries {first} and {i}); names must be distinct"
+                ),
             ));
         }
         names.push(name);

@@ -57,11 +57,7 @@ fn show(pole: Complex<f64>, is_pair: bool) -> String {
     }
 }
 
-fn check_stable(
-    node: &Node<'_, '_>,
-    entry: &Entry,
-    plane: Plane,
-) -> Result<(), ModelError> {
+fn check_stable(node: &Node<'_, '_>, entry: &Entry, plane: Plane) -> Result<(), ModelError> {
     let shown = show(entry.pole, entry.is_pair);
     match plane {
         Plane::S if entry.pole.re >= 0.0 => Err(node.fail(

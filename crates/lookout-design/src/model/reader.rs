@@ -130,11 +130,6 @@ impl<'a, 'i> Table<'a, 'i> {
         Ok(table)
     }
 
-    /// The key path of this table (empty for the root).
-    pub fn path(&self) -> &str {
-        &self.path
-    }
-
     /// An error about the table as a whole.
     pub fn fail(&self, kind: ModelErrorKind, message: impl Into<String>) -> ModelError {
         let path = if self.path.is_empty() {
@@ -142,8 +137,26 @@ impl<'a, 'i> Table<'a, 'i> {
         } else {
             &self.path
         };
-        self.src
-            .error(path, Some(self.span.clone()), kind, message)
+        self.src.error(path, Some(self.span.clone()), kind, message)
+    }
+
+    /// An error about `key` of this table: at the key's value when present,
+    /// else at the table.
+    pub fn fail_at(
+        &self,
+        key: &str,
+        kind: ModelErrorKind,
+        message: impl Into<String>,
+    ) -> ModelError {
+        match self.get(key) {
+            Some(node) => node.fail(kind, message),
+            None => self.src.error(
+                &join(&self.path, key),
+                Some(self.span.clone()),
+                kind,
+                message,
+            ),
+        }
     }
 
     fn check_keys(&self, allowed: &[&str]) -> Result<(), ModelError> {
@@ -347,23 +360,6 @@ impl<'a, 'i> Node<'a, 'i> {
         }
     }
 
-    /// A non-empty flat list of finite numbers.
-    pub fn numbers(&self) -> Result<Vec<f64>, ModelError> {
-        let items = self.elements()?;
-        if items.is_empty() {
-            return Err(self.fail(ModelErrorKind::WrongSize, "empty list"));
-        }
-        items.iter().map(Node::number).collect()
-    }
-
-    /// A list of strings.
-    pub fn strings(&self) -> Result<Vec<String>, ModelError> {
-        self.elements()?
-            .iter()
-            .map(|item| item.string().map(str::to_string))
-            .collect()
-    }
-
     /// A matrix written as a non-empty array of equally long, non-empty rows.
     pub fn matrix(&self) -> Result<DMatrix<f64>, ModelError> {
         const HOW: &str = "write a matrix as an array of rows, e.g. [[1.0, 0.0], [0.0, 1.0]]";
@@ -372,10 +368,7 @@ impl<'a, 'i> Node<'a, 'i> {
             _ => return Err(self.wrong_type(&format!("a matrix ({HOW})"))),
         };
         if rows.is_empty() {
-            return Err(self.fail(
-                ModelErrorKind::WrongSize,
-                format!("empty matrix; {HOW}"),
-            ));
+            return Err(self.fail(ModelErrorKind::WrongSize, format!("empty matrix; {HOW}")));
         }
         let mut data = Vec::new();
         let mut width = 0;
@@ -425,7 +418,11 @@ impl<'a, 'i> Node<'a, 'i> {
         {
             return Err(self.fail(
                 ModelErrorKind::WrongSize,
-                format!("expected {}, found {}", rows.describe("row", "rows"), m.nrows()),
+                format!(
+                    "expected {}, found {}",
+                    rows.describe("row", "rows"),
+                    m.nrows()
+                ),
             ));
         }
         if let Some(cols) = cols

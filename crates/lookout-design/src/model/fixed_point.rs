@@ -1,0 +1,149 @@
+//! The optional `[fixed_point]` section: word format and signal ranges for
+//! the integer tables.
+
+use super::error::{ModelError, ModelErrorKind, ModelWarning};
+use super::plant::Plant;
+use super::reader::{Dim, Table};
+
+/// Keys allowed in `[fixed_point]`.
+pub(crate) const KEYS: &[&str] = &[
+    "format",
+    "input_range",
+    "output_range",
+    "state_range",
+    "margin_bits",
+    "stability_margin",
+];
+
+/// Headroom bits when `margin_bits` is not given.
+pub const DEFAULT_MARGIN_BITS: u32 = 1;
+
+/// Allowed growth of the error spectral radius when `stability_margin` is not given.
+pub const DEFAULT_STABILITY_MARGIN: f64 = 0.01;
+
+/// Signed fractional word format of the fixed-point tables.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum FixedFormat {
+    /// 32-bit word, 31 fraction bits.
+    Q31,
+    /// 16-bit word, 15 fraction bits.
+    Q15,
+}
+
+impl FixedFormat {
+    /// Number of fraction bits (31 or 15).
+    pub fn fraction_bits(self) -> u32 {
+        match self {
+            FixedFormat::Q31 => 31,
+            FixedFormat::Q15 => 15,
+        }
+    }
+}
+
+/// Fixed-point request: format, ranges and safety margins.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FixedPointSpec {
+    /// Word format.
+    pub format: FixedFormat,
+    /// Largest |u_i| the firmware will pass, one per input, in input units.
+    pub input_range: Vec<f64>,
+    /// Largest |y_i| the firmware will pass, one per output, in output units.
+    pub output_range: Vec<f64>,
+    /// Largest |x_i| to provide for, one per state; `None` lets the design
+    /// derive state ranges from the input and output ranges.
+    pub state_range: Option<Vec<f64>>,
+    /// Extra headroom bits above every range (each bit doubles the range).
+    pub margin_bits: u32,
+    /// How much the spectral radius of the quantised error dynamics may exceed
+    /// that of the exact design before the fixed-point design is refused
+    /// (absolute, e.g. 0.01 allows 0.95 → 0.96); a spectral radius ≥ 1 is
+    /// always refused.
+    pub stability_margin: f64,
+}
+
+/// Reads and checks `[fixed_point]` for `plant`.
+pub(crate) fn read(
+    table: &Table<'_, '_>,
+    plant: &Plant,
+    warnings: &mut Vec<ModelWarning>,
+) -> Result<FixedPointSpec, ModelError> {
+    let format = table
+        .require("format", "\"q31\" or \"q15\"")?
+        .choice(&[("q31", FixedFormat::Q31), ("q15", FixedFormat::Q15)])?;
+    let input_range = table
+        .require("input_range", "max |u_i|, one per input")?
+        .positive_numbers(Dim {
+            count: plant.m(),
+            per: "input",
+            symbol: "m",
+            from: "plant.b",
+        })?;
+    let output_range = table
+        .require("output_range", "max |y_i|, one per output")?
+        .positive_numbers(Dim {
+            count: plant.p(),
+            per: "output",
+            symbol: "p",
+            from: "plant.c",
+        })?;
+    let state_range = table
+        .get("state_range")
+        .map(|node| {
+            node.positive_numbers(Dim {
+                count: plant.n(),
+                per: "state",
+                symbol: "n",
+                from: "plant.a",
+            })
+        })
+        .transpose()?;
+
+    let margin_bits = match table.get("margin_bits") {
+        Some(node) => {
+            let bits = node.count()?;
+            if bits >= format.fraction_bits() {
+                return Err(node.fail(
+                    ModelErrorKind::OutOfRange,
+                    format!(
+                        "{bits} headroom bits leave no fraction bits in a {}-bit fraction",
+                        format.fraction_bits()
+                    ),
+                ));
+            }
+            if bits == 0 {
+                warnings.push(ModelWarning {
+                    path: node.path().to_string(),
+                    message: "no headroom: a signal at its stated range saturates".to_string(),
+                });
+            }
+            bits
+        }
+        None => DEFAULT_MARGIN_BITS,
+    };
+
+    let stability_margin = match table.get("stability_margin") {
+        Some(node) => {
+            let margin = node.number()?;
+            if !(0.0..1.0).contains(&margin) {
+                return Err(node.fail(
+                    ModelErrorKind::OutOfRange,
+                    format!(
+                        "{margin} is outside [0, 1): it is the allowed growth of the error \
+                         spectral radius, which must stay below 1 anyway"
+                    ),
+                ));
+            }
+            margin
+        }
+        None => DEFAULT_STABILITY_MARGIN,
+    };
+
+    Ok(FixedPointSpec {
+        format,
+        input_range,
+        output_range,
+        state_range,
+        margin_bits,
+        stability_margin,
+    })
+}
