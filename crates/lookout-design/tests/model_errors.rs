@@ -587,13 +587,13 @@ fn measurement_noise_must_be_positive_definite() {
         &kalman("process_noise = [[1.0, 0.0], [0.0, 1.0]]\nmeasurement_noise = [[0.0]]\n"),
         ModelErrorKind::NotDefinite,
         "observer.kalman.measurement_noise",
-        &["not positive definite", "smallest eigenvalue 0e0"],
+        &["not positive definite", "smallest eigenvalue 0.0000e0"],
     );
     check(
         &kalman("process_noise = [[1.0, 0.0], [0.0, 1.0]]\nmeasurement_noise = [[-2.0]]\n"),
         ModelErrorKind::NotDefinite,
         "observer.kalman.measurement_noise",
-        &["not positive definite", "-2e0"],
+        &["not positive definite", "-2.0000e0"],
     );
 }
 

@@ -408,3 +408,29 @@ proptest! {
         prop_assert!(m.warnings.is_empty());
     }
 }
+
+/// The schema example in the `model` module docs is itself a valid model
+/// (the docs cannot drift from the parser).
+#[test]
+fn schema_example_in_the_module_docs_parses() {
+    let source = include_str!("../src/model/mod.rs");
+    let example: String = source
+        .lines()
+        .skip_while(|line| line.trim() != "//! ```toml")
+        .skip(1)
+        .take_while(|line| line.trim() != "//! ```")
+        .map(|line| {
+            line.strip_prefix("//!")
+                .unwrap_or(line)
+                .trim_start_matches(' ')
+        })
+        .map(|line| format!("{line}\n"))
+        .collect();
+    assert!(example.contains("[plant]"), "example not found");
+    let m = parse(&example);
+    assert_eq!(m.name, "conveyor");
+    assert_eq!(
+        m.observer.gain_source,
+        GainSource::Poles(vec![Complex::new(-60.0, 30.0), Complex::new(-60.0, -30.0)])
+    );
+}

@@ -79,16 +79,16 @@ pub(crate) fn check_definite(
         Need::SemiDefinite if lambda_min < -slack => Err(node.fail(
             ModelErrorKind::NotDefinite,
             format!(
-                "not positive semidefinite: smallest eigenvalue {lambda_min:e} \
-                 (needs >= -{slack:e} = -16 n eps max|eigenvalue|); \
+                "not positive semidefinite: smallest eigenvalue {lambda_min:.4e} \
+                 (needs >= -{slack:.2e} = -16 n eps max|eigenvalue|); \
                  a noise intensity cannot be negative in any direction"
             ),
         )),
         Need::Definite if lambda_min <= slack => Err(node.fail(
             ModelErrorKind::NotDefinite,
             format!(
-                "not positive definite: smallest eigenvalue {lambda_min:e} \
-                 (needs > {slack:e} = 16 n eps max|eigenvalue|); \
+                "not positive definite: smallest eigenvalue {lambda_min:.4e} \
+                 (needs > {slack:.2e} = 16 n eps max|eigenvalue|); \
                  every measurement needs some noise, or the Kalman gain trusts it without limit"
             ),
         )),

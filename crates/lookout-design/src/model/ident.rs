@@ -28,9 +28,7 @@ pub(crate) fn identifier_problem(s: &str) -> Option<String> {
         .chars()
         .find(|c| !(c.is_ascii_alphanumeric() || *c == '_'))
     {
-        return Some(format!(
-            "'{bad}' is not allowed (use ASCII letters, digits and '_')"
-        ));
+        return Some(format!("'{bad}' is not allowed"));
     }
     if s == "_" {
         return Some("'_' alone is not an identifier".to_string());
@@ -58,7 +56,10 @@ pub(crate) fn read_names(
         if let Some(problem) = identifier_problem(&name) {
             return Err(item.fail(
                 ModelErrorKind::BadName,
-                format!("\"{name}\" is not a valid identifier: {problem}"),
+                format!(
+                    "\"{name}\" is not a valid identifier: {problem} \
+                     (use ASCII letters, digits and '_', starting with a letter or '_')"
+                ),
             ));
         }
         if let Some(first) = seen.insert(name.clone(), i) {

@@ -201,7 +201,7 @@ fn read_name(node: &Node<'_, '_>) -> Result<String, ModelError> {
             ModelErrorKind::BadName,
             format!(
                 "\"{name}\" is not usable as a Rust identifier after mapping '-' to '_': \
-                 {problem}; use ASCII letters, digits, '_' and '-', starting with a letter"
+                 {problem} (use ASCII letters, digits, '_' and '-', starting with a letter)"
             ),
         )),
     }
