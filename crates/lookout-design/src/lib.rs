@@ -2,5 +2,10 @@
 //!
 //! (Crate documentation is written once the pipeline is assembled.)
 
+pub mod design;
+pub mod emit;
 pub mod model;
 pub mod numerics;
+
+pub use design::{Design, DesignError, Warning, design_file, design_text};
+pub use emit::{Scalar, emit_file, write_tables};

@@ -1,0 +1,68 @@
+//! The `--json` output of `lookout design`: one object, stable key names.
+
+use lookout_design::Design;
+use nalgebra::{Complex, DMatrix};
+use serde_json::{Value, json};
+
+fn matrix(m: &DMatrix<f64>) -> Value {
+    Value::Array(
+        m.row_iter()
+            .map(|row| Value::Array(row.iter().map(|&v| json!(v)).collect()))
+            .collect(),
+    )
+}
+
+fn poles(z: &[Complex<f64>]) -> Value {
+    Value::Array(z.iter().map(|z| json!([z.re, z.im])).collect())
+}
+
+/// The design as one JSON object followed by a newline.
+pub fn design(d: &Design) -> String {
+    let kalman = d.kalman.as_ref().map_or(Value::Null, |k| {
+        json!({
+            "p": matrix(&k.p),
+            "innovation_covariance": matrix(&k.innovation_covariance),
+            "process_noise": matrix(&k.process_noise),
+            "k": matrix(&k.k),
+            "residual": k.residual,
+        })
+    });
+    let hold = d.hold_mismatch.as_ref().map_or(
+        Value::Null,
+        |h| json!({ "state": matrix(&h.state), "input": matrix(&h.input) }),
+    );
+    let value = json!({
+        "name": d.model.name,
+        "sample_period": d.model.sample_period,
+        "form": match d.model.observer.form {
+            lookout_design::model::Form::Predictor => "predictor",
+            lookout_design::model::Form::Current => "current",
+        },
+        "n": d.n(),
+        "m": d.m(),
+        "p": d.p(),
+        "ad": matrix(&d.ad),
+        "bd": matrix(&d.bd),
+        "cd": matrix(&d.cd),
+        "dd": matrix(&d.dd),
+        "f": matrix(&d.f),
+        "g": matrix(&d.g),
+        "h": matrix(&d.h),
+        "gain": d.gain.as_ref().map_or(Value::Null, matrix),
+        "target_poles": d.target_poles.as_deref().map_or(Value::Null, poles),
+        "error_poles": poles(&d.error_poles),
+        "spectral_radius": d.spectral_radius,
+        "plant_poles": poles(&d.plant_poles),
+        "observability": {
+            "rank": d.observability.rank,
+            "n": d.n(),
+            "condition": d.observability.condition,
+        },
+        "kalman": kalman,
+        "hold_mismatch": hold,
+        "output_noise_gain": d.output_noise_gain,
+        "model_hash": d.model_hash,
+        "warnings": d.warnings.iter().map(ToString::to_string).collect::<Vec<_>>(),
+    });
+    format!("{value}\n")
+}

@@ -1,0 +1,247 @@
+//! The design pipeline: model → zero-order hold → observability → gain →
+//! fused tables → checks.
+//!
+//! The result, [`Design`], holds everything the report, the JSON output and
+//! the code generator print. All matrices are of the sampled system:
+//!
+//! * predictor form, gain L: x̂⁺ = Ad x̂ + Bd u + L (y − Cd x̂ − Dd u), so
+//!   F = Ad − L Cd, G = Bd − L Dd, H = L;
+//! * current form, gain K: x̂[k|k] = x̂[k|k−1] + K r, x̂[k+1|k] = Ad x̂[k|k] + Bd u,
+//!   whose prediction obeys the same recursion with L = Ad K:
+//!   F = Ad − Ad K Cd, G = Bd − Ad K Dd, H = Ad K;
+//! * `gain_method = "hold"`: F, G, H are the zero-order hold of the
+//!   continuous observer itself, and no innovation gain exists.
+//!
+//! The error poles are the eigenvalues of F (for the current form these are
+//! also those of (I − K Cd) Ad, the filtered estimate's error matrix).
+
+mod error;
+mod gain;
+mod noise;
+mod warnings;
+
+pub use error::DesignError;
+pub use warnings::Warning;
+
+use crate::model::{Domain, Form, Model};
+use crate::numerics::{self, ObservabilityReport};
+use nalgebra::{Complex, DMatrix};
+use std::path::Path;
+
+/// A finished observer design for one model.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Design {
+    /// The model as read.
+    pub model: Model,
+    /// The model file name used in messages.
+    pub origin: String,
+    /// FNV-1a 64-bit hash of the model file's bytes, as 16 hex digits (an
+    /// identifier for generated code, not a cryptographic digest).
+    pub model_hash: String,
+    /// Sampled plant.
+    pub ad: DMatrix<f64>,
+    /// Sampled input matrix.
+    pub bd: DMatrix<f64>,
+    /// Output matrix.
+    pub cd: DMatrix<f64>,
+    /// Feed-through matrix.
+    pub dd: DMatrix<f64>,
+    /// The innovation gain the runtime applies: L (predictor) or K (current);
+    /// `None` for `gain_method = "hold"`.
+    pub gain: Option<DMatrix<f64>>,
+    /// Fused F.
+    pub f: DMatrix<f64>,
+    /// Fused G.
+    pub g: DMatrix<f64>,
+    /// Fused H.
+    pub h: DMatrix<f64>,
+    /// The z-plane poles the gain was designed for, when it was placed.
+    pub target_poles: Option<Vec<Complex<f64>>>,
+    /// Eigenvalues of F: the discrete error dynamics.
+    pub error_poles: Vec<Complex<f64>>,
+    /// Largest |error pole|.
+    pub spectral_radius: f64,
+    /// Eigenvalues of Ad.
+    pub plant_poles: Vec<Complex<f64>>,
+    /// Observability of (Ad, Cd).
+    pub observability: ObservabilityReport,
+    /// Steady-state Kalman results, for a Kalman design.
+    pub kalman: Option<KalmanResult>,
+    /// For `gain_method = "hold"`: how far the held observer is from an exact
+    /// observer of the sampled plant.
+    pub hold_mismatch: Option<HoldMismatch>,
+    /// Innovation gate tables, when the model asks for gating.
+    pub gate: Option<GateDesign>,
+    /// Standard deviation of each output's estimate C x̂ per unit standard
+    /// deviation of white noise on that output (above 1: the observer passes
+    /// more measurement noise than the raw reading has).
+    pub output_noise_gain: Vec<f64>,
+    /// Non-fatal findings.
+    pub warnings: Vec<Warning>,
+}
+
+/// Steady-state Kalman filter quantities.
+#[derive(Debug, Clone, PartialEq)]
+pub struct KalmanResult {
+    /// A-priori error covariance P (per sample).
+    pub p: DMatrix<f64>,
+    /// Innovation covariance S = Cd P Cdᵀ + R.
+    pub innovation_covariance: DMatrix<f64>,
+    /// Process noise covariance per sample, Qd, after discretisation.
+    pub process_noise: DMatrix<f64>,
+    /// Current-form gain K = P Cdᵀ S⁻¹.
+    pub k: DMatrix<f64>,
+    /// Relative residual of the Riccati equation.
+    pub residual: f64,
+}
+
+/// The defect of a held continuous observer: with e = x − x̂,
+/// e⁺ = F e + Ex x + Eu u, where an exact observer has Ex = 0 and Eu = 0.
+#[derive(Debug, Clone, PartialEq)]
+pub struct HoldMismatch {
+    /// Ex = Ad − F − H Cd.
+    pub state: DMatrix<f64>,
+    /// Eu = Bd − G − H Dd.
+    pub input: DMatrix<f64>,
+}
+
+/// Gate tables for the runtime's `Gate`.
+#[derive(Debug, Clone, PartialEq)]
+pub struct GateDesign {
+    /// S⁻¹.
+    pub s_inv: DMatrix<f64>,
+    /// Limit on the normalised innovation squared with every channel.
+    pub limit: f64,
+    /// 1 / S_jj.
+    pub channel_inv_variance: Vec<f64>,
+    /// Limit on r_j² / S_jj when channels are missing.
+    pub channel_limit: f64,
+}
+
+impl Design {
+    /// Number of states.
+    pub fn n(&self) -> usize {
+        self.ad.nrows()
+    }
+    /// Number of inputs.
+    pub fn m(&self) -> usize {
+        self.bd.ncols()
+    }
+    /// Number of outputs.
+    pub fn p(&self) -> usize {
+        self.cd.nrows()
+    }
+    /// The s-plane equivalent ln(z)/T of each error pole (`None` for z = 0,
+    /// which has none).
+    pub fn error_poles_s(&self) -> Vec<Option<Complex<f64>>> {
+        let t = self.model.sample_period;
+        self.error_poles
+            .iter()
+            .map(|z| (z.norm() > 0.0).then(|| z.ln() / t))
+            .collect()
+    }
+}
+
+/// Reads the model file at `path` and designs its observer.
+pub fn design_file(path: &Path) -> Result<Design, DesignError> {
+    let origin = path.file_name().map_or_else(
+        || path.display().to_string(),
+        |f| f.to_string_lossy().into_owned(),
+    );
+    let text = std::fs::read_to_string(path).map_err(|e| {
+        DesignError::Model(crate::model::ModelError::new(
+            &origin,
+            "",
+            crate::model::ModelErrorKind::Io,
+            format!("cannot read {}: {e}", path.display()),
+        ))
+    })?;
+    design_text(&text, &origin)
+}
+
+/// Designs the observer of the model in `text`; `origin` names it in messages.
+pub fn design_text(text: &str, origin: &str) -> Result<Design, DesignError> {
+    let model = Model::from_toml_str(text, origin)?;
+    design_model(model, origin, fnv1a64(text.as_bytes()))
+}
+
+fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignError> {
+    let fail = |stage: &'static str| {
+        move |source| DesignError::Numerics {
+            origin: origin.to_string(),
+            stage,
+            source,
+        }
+    };
+    let t = model.sample_period;
+    let plant = &model.plant;
+    let (ad, bd) = match plant.domain {
+        Domain::Continuous => {
+            numerics::zoh(&plant.a, &plant.b, t).map_err(fail("zero-order hold of (A, B)"))?
+        }
+        Domain::Discrete => (plant.a.clone(), plant.b.clone()),
+    };
+    let (cd, dd) = (plant.c.clone(), plant.d.clone());
+    let observability =
+        numerics::observability(&ad, &cd).map_err(fail("observability of (Ad, Cd)"))?;
+    let plant_poles = numerics::eigenvalues("Ad", &ad).map_err(fail("eigenvalues of Ad"))?;
+
+    let designed = gain::design(&model, origin, &ad, &bd, &cd, &dd)?;
+    let error_poles = numerics::eigenvalues("F", &designed.f).map_err(fail("eigenvalues of F"))?;
+    let spectral_radius = error_poles.iter().map(|z| z.norm()).fold(0.0, f64::max);
+    if spectral_radius >= 1.0 {
+        return Err(DesignError::Unsupported {
+            origin: origin.to_string(),
+            key: "observer",
+            message: format!(
+                "the designed error dynamics are not stable: spectral radius of F is {spectral_radius:.6} (must be < 1)"
+            ),
+        });
+    }
+    let output_noise_gain = noise::output_noise_gain(&designed.f, &designed.h, &cd)
+        .map_err(fail("noise gain of the observer"))?;
+    let gate = match &model.observer.gate {
+        None => None,
+        Some(spec) => Some(gain::gate(origin, spec, designed.kalman.as_ref())?),
+    };
+
+    let mut design = Design {
+        origin: origin.to_string(),
+        model_hash: format!("{hash:016x}"),
+        ad,
+        bd,
+        cd,
+        dd,
+        gain: designed.gain,
+        f: designed.f,
+        g: designed.g,
+        h: designed.h,
+        target_poles: designed.target_poles,
+        error_poles,
+        spectral_radius,
+        plant_poles,
+        observability,
+        kalman: designed.kalman,
+        hold_mismatch: designed.hold_mismatch,
+        gate,
+        output_noise_gain,
+        warnings: Vec::new(),
+        model,
+    };
+    design.warnings = warnings::collect(&design, designed.warnings);
+    if design.model.observer.form == Form::Current && design.gain.is_none() {
+        // The hold method defines the fused recursion only.
+        design.warnings.push(Warning::new(
+            "observer.gain_method",
+            "the held observer has no separate correction step; only fused tables are emitted",
+        ));
+    }
+    Ok(design)
+}
+
+/// FNV-1a, 64 bits (Fowler–Noll–Vo; offset basis and prime as published).
+pub(crate) fn fnv1a64(bytes: &[u8]) -> u64 {
+    bytes.iter().fold(0xcbf2_9ce4_8422_2325, |h, &b| {
+        (h ^ u64::from(b)).wrapping_mul(0x0000_0100_0000_01b3)
+    })
+}

@@ -1,0 +1,87 @@
+//! Noise: process noise per sample, and how much measurement noise an
+//! observer passes into its estimates.
+
+use super::DesignError;
+use crate::model::{Domain, KalmanSpec, Model, NoiseDomain};
+use crate::numerics::{self, NumericsError};
+use nalgebra::DMatrix;
+
+/// Qd, the process noise covariance per sample: Van Loan's (1978) block
+/// exponential for a continuous spectral density, G Q Gᵀ for a per-sample one.
+pub(super) fn process_noise_per_sample(
+    origin: &str,
+    model: &Model,
+    spec: &KalmanSpec,
+) -> Result<DMatrix<f64>, DesignError> {
+    let n = model.plant.a.nrows();
+    let g = spec
+        .noise_input
+        .clone()
+        .unwrap_or_else(|| DMatrix::identity(n, n));
+    match spec.noise_domain {
+        NoiseDomain::Discrete => Ok(&g * &spec.process_noise * g.transpose()),
+        NoiseDomain::Continuous => {
+            if model.plant.domain == Domain::Discrete {
+                return Err(DesignError::Unsupported {
+                    origin: origin.to_string(),
+                    key: "observer.kalman.noise_domain",
+                    message: "a continuous noise density needs a continuous plant; with plant.domain = \"discrete\" set noise_domain = \"discrete\"".into(),
+                });
+            }
+            numerics::van_loan_process_noise(
+                &model.plant.a,
+                &g,
+                &spec.process_noise,
+                model.sample_period,
+            )
+            .map_err(|source| DesignError::Numerics {
+                origin: origin.to_string(),
+                stage: "process noise per sample (Van Loan)",
+                source,
+            })
+        }
+    }
+}
+
+/// For each output j: the standard deviation of (Cd x̂)_j in steady state when
+/// unit-variance white noise enters on output j alone, x̂⁺ = F x̂ + H_j w.
+///
+/// The state covariance X = Σₖ Fᵏ H_j H_jᵀ (Fᵏ)ᵀ is summed by the doubling
+/// (Smith) iteration X ← X + Aᵢ X Aᵢᵀ, Aᵢ₊₁ = Aᵢ², which converges
+/// quadratically when ρ(F) < 1; it stops after 64 doublings at most.
+pub(super) fn output_noise_gain(
+    f: &DMatrix<f64>,
+    h: &DMatrix<f64>,
+    cd: &DMatrix<f64>,
+) -> Result<Vec<f64>, NumericsError> {
+    (0..h.ncols())
+        .map(|j| {
+            let hj = h.column(j);
+            let mut x = hj * hj.transpose();
+            let mut a = f.clone();
+            for _ in 0..64 {
+                let step = &a * &x * a.transpose();
+                let done = step.norm() <= f64::EPSILON * x.norm();
+                x += step;
+                if done {
+                    break;
+                }
+                a = &a * &a;
+            }
+            let cj = cd.row(j);
+            let variance = (cj * &x * cj.transpose())
+                .get((0, 0))
+                .copied()
+                .unwrap_or(f64::NAN);
+            if variance.is_finite() {
+                Ok(variance.max(0.0).sqrt())
+            } else {
+                Err(NumericsError::BadParameter {
+                    name: "noise gain",
+                    value: variance,
+                    condition: "finite (the error dynamics must be stable)",
+                })
+            }
+        })
+        .collect()
+}

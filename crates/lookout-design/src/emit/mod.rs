@@ -1,0 +1,255 @@
+//! Rust source for the runtime's tables: one module per model, with one
+//! `static` per observer, ready to `include!`.
+//!
+//! The generator is pure: [`write_tables`] writes to any `io::Write`, and
+//! the same design always gives the same bytes. Floats are printed so that
+//! they read back exactly. [`emit_file`] is the build-script entry point: it
+//! writes the whole file or nothing.
+
+mod literal;
+
+pub use literal::Scalar;
+
+use crate::design::{Design, DesignError, design_file};
+use crate::model::{Form, GainSource};
+use nalgebra::DMatrix;
+use std::fmt::Write as _;
+use std::io;
+use std::path::Path;
+
+/// Designs the model at `model_path` and writes its tables to `out_path`.
+///
+/// The file is written to a temporary name beside `out_path` and renamed
+/// into place, so a failure never leaves a partial file. Returns the design
+/// (its warnings are for the caller to show).
+///
+/// In a firmware crate's `build.rs`:
+///
+/// ```no_run
+/// # fn main() -> Result<(), Box<dyn std::error::Error>> {
+/// use std::path::{Path, PathBuf};
+/// let out = PathBuf::from(std::env::var("OUT_DIR")?).join("conveyor.rs");
+/// let model = Path::new("../conveyor.toml");
+/// println!("cargo:rerun-if-changed={}", model.display());
+/// let design = lookout_design::emit_file(model, &out, lookout_design::Scalar::F32)?;
+/// for w in &design.warnings {
+///     println!("cargo:warning={w}");
+/// }
+/// # Ok(()) }
+/// ```
+///
+/// and in the firmware: `include!(concat!(env!("OUT_DIR"), "/conveyor.rs"));`
+/// then `conveyor::PREDICTOR` (or `CURRENT`, `FUSED`).
+pub fn emit_file(
+    model_path: &Path,
+    out_path: &Path,
+    scalar: Scalar,
+) -> Result<Design, DesignError> {
+    let design = design_file(model_path)?;
+    let mut text = Vec::new();
+    write_tables(&design, scalar, &mut text).map_err(|e| io_error(out_path, &e))?;
+    write_atomically(out_path, &text)?;
+    Ok(design)
+}
+
+/// Writes `bytes` to `path` through a temporary file in the same directory.
+pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), DesignError> {
+    let mut tmp = path.as_os_str().to_owned();
+    tmp.push(".partial");
+    let tmp = std::path::PathBuf::from(tmp);
+    std::fs::write(&tmp, bytes).map_err(|e| io_error(path, &e))?;
+    std::fs::rename(&tmp, path).map_err(|e| {
+        let _ = std::fs::remove_file(&tmp);
+        io_error(path, &e)
+    })
+}
+
+fn io_error(path: &Path, e: &io::Error) -> DesignError {
+    DesignError::Io {
+        path: path.display().to_string(),
+        message: e.to_string(),
+    }
+}
+
+/// Writes the Rust source of `design`'s tables in `scalar` to `out`.
+///
+/// Fails with `InvalidData` if an entry does not fit `scalar`.
+pub fn write_tables(design: &Design, scalar: Scalar, out: &mut impl io::Write) -> io::Result<()> {
+    let text = source(design, scalar).ok_or_else(|| {
+        io::Error::new(
+            io::ErrorKind::InvalidData,
+            format!(
+                "a table entry of {} does not fit {}",
+                design.model.name,
+                scalar.rust_type()
+            ),
+        )
+    })?;
+    out.write_all(text.as_bytes())
+}
+
+fn source(d: &Design, scalar: Scalar) -> Option<String> {
+    let ty = scalar.rust_type();
+    let module = d.model.identifier();
+    let mut s = String::new();
+    header(d, &mut s);
+    let _ = writeln!(
+        s,
+        "/// Observer tables of the model `{}` (generated; do not edit).",
+        d.model.name
+    );
+    let _ = writeln!(
+        s,
+        "#[allow(dead_code, clippy::approx_constant, clippy::excessive_precision)]"
+    );
+    let _ = writeln!(s, "pub mod {module} {{");
+    let _ = writeln!(
+        s,
+        "    /// Number of states.\n    pub const N: usize = {};",
+        d.n()
+    );
+    let _ = writeln!(
+        s,
+        "    /// Number of inputs.\n    pub const M: usize = {};",
+        d.m()
+    );
+    let _ = writeln!(
+        s,
+        "    /// Number of outputs.\n    pub const P: usize = {};",
+        d.p()
+    );
+    let _ = writeln!(
+        s,
+        "    /// Sample period in seconds.\n    pub const SAMPLE_PERIOD: f64 = {:?};",
+        d.model.sample_period
+    );
+    let plant = &d.model.plant;
+    names(
+        &mut s,
+        "state",
+        "the estimate",
+        plant.state_names.as_deref(),
+    );
+    names(
+        &mut s,
+        "input",
+        "the input vector",
+        plant.input_names.as_deref(),
+    );
+    names(
+        &mut s,
+        "output",
+        "the measurement vector",
+        plant.output_names.as_deref(),
+    );
+
+    let gate = match &d.gate {
+        None => "None".to_string(),
+        Some(g) => format!(
+            "Some(lookout::Gate {{ s_inv: {}, limit: {}, channel_inv_variance: {}, channel_limit: {} }})",
+            matrix(scalar, &g.s_inv)?,
+            scalar.literal(g.limit)?,
+            literal::list(scalar, g.channel_inv_variance.iter().copied())?,
+            scalar.literal(g.channel_limit)?,
+        ),
+    };
+    let plant_item = format!(
+        "lookout::Plant {{\n        a: {},\n        b: {},\n        c: {},\n        d: {},\n    }}",
+        matrix(scalar, &d.ad)?,
+        matrix(scalar, &d.bd)?,
+        matrix(scalar, &d.cd)?,
+        matrix(scalar, &d.dd)?,
+    );
+    if let Some(gain) = &d.gain {
+        let (item, table, field, doc) = match d.model.observer.form {
+            Form::Predictor => (
+                "PREDICTOR",
+                "PredictorTables",
+                "l",
+                "Predictor (Luenberger) tables: x̂⁺ = A x̂ + B u + L (y − C x̂ − D u).",
+            ),
+            Form::Current => (
+                "CURRENT",
+                "CurrentTables",
+                "k",
+                "Current-form tables: x̂[k|k] = x̂[k|k−1] + K r, x̂[k+1|k] = A x̂[k|k] + B u.",
+            ),
+        };
+        let _ = writeln!(
+            s,
+            "    /// {doc}\n    pub static {item}: lookout::{table}<{ty}, N, M, P> = lookout::{table} {{\n        plant: {},\n        {field}: {},\n        gate: {gate},\n    }};",
+            plant_item.replace("\n", "\n    "),
+            matrix(scalar, gain)?,
+        );
+    }
+    let _ = writeln!(
+        s,
+        "    /// Fused tables: x̂⁺ = F x̂ + G u + H y ({} multiply-adds per step).\n    pub static FUSED: lookout::FusedTables<{ty}, N, M, P> = lookout::FusedTables {{\n        f: {},\n        g: {},\n        h: {},\n        c: {},\n        d: {},\n        gate: {gate},\n    }};",
+        d.n() * (d.n() + d.m() + d.p()),
+        matrix(scalar, &d.f)?,
+        matrix(scalar, &d.g)?,
+        matrix(scalar, &d.h)?,
+        matrix(scalar, &d.cd)?,
+        matrix(scalar, &d.dd)?,
+    );
+    s.push_str("}\n");
+    Some(s)
+}
+
+fn matrix(scalar: Scalar, m: &DMatrix<f64>) -> Option<String> {
+    Some(format!(
+        "lookout::Matrix::from_rows({})",
+        literal::rows(scalar, m)?
+    ))
+}
+
+fn header(d: &Design, s: &mut String) {
+    let source = match &d.model.observer.gain_source {
+        GainSource::Poles(_) => "s-plane poles mapped by z = exp(sT)",
+        GainSource::DiscretePoles(_) => "z-plane poles",
+        GainSource::Gain { .. } => "a continuous gain",
+        GainSource::Kalman(_) => "steady-state Kalman design",
+    };
+    let form = match d.model.observer.form {
+        Form::Predictor => "predictor",
+        Form::Current => "current",
+    };
+    let _ = writeln!(
+        s,
+        "// Generated by lookout-design {} from {} - do not edit; regenerate instead.",
+        env!("CARGO_PKG_VERSION"),
+        d.origin
+    );
+    let _ = writeln!(
+        s,
+        "// model `{}`: {form} form, gain from {source}",
+        d.model.name
+    );
+    let _ = writeln!(s, "// sample period: {:?} s", d.model.sample_period);
+    let _ = writeln!(s, "// model file hash (FNV-1a 64): {}", d.model_hash);
+    let _ = writeln!(s, "// error poles, z (and s = ln(z)/T in rad/s):");
+    for (z, sp) in d.error_poles.iter().zip(d.error_poles_s()) {
+        let s_text = sp.map_or_else(
+            || "none (z = 0)".to_string(),
+            |p| format!("{:.6} {:+.6}i", p.re, p.im),
+        );
+        let _ = writeln!(s, "//   {:.9} {:+.9}i   (s: {s_text})", z.re, z.im);
+    }
+    let _ = writeln!(s, "// spectral radius: {:.9}\n", d.spectral_radius);
+}
+
+fn names(s: &mut String, module: &str, what: &str, names: Option<&[String]>) {
+    let Some(names) = names else { return };
+    let _ = writeln!(
+        s,
+        "    /// Index of each entry in {what}.\n    pub mod {module} {{"
+    );
+    for (i, name) in names.iter().enumerate() {
+        let _ = writeln!(
+            s,
+            "        /// `{name}`.\n        pub const {}: usize = {i};",
+            name.to_uppercase()
+        );
+    }
+    let _ = writeln!(s, "    }}");
+}
