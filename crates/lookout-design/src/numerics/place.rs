@@ -294,6 +294,62 @@ fn to_c(m: &DMatrix<f64>) -> DMatrix<C64> {
     m.map(|v| C64::new(v, 0.0))
 }
 
+/// Real form `T` of the eigenvector matrix: a real pole's column is `xⱼ`, a
+/// pair (leader j, conjugate j̄) gives `Re xⱼ` at j and `Im xⱼ` at j̄.
+fn real_form(x: &DMatrix<C64>, poles: &[Pole]) -> DMatrix<f64> {
+    let n = x.nrows();
+    let mut t = DMatrix::<f64>::zeros(n, poles.len());
+    for (j, pl) in poles.iter().enumerate() {
+        if j >= x.ncols() {
+            break;
+        }
+        let col = x.column(j);
+        if pl.value.im == 0.0 {
+            t.set_column(j, &col.map(|v| v.re));
+        } else if let (true, Some(jj)) = (pl.leads(), pl.partner) {
+            if jj < t.ncols() {
+                t.set_column(j, &col.map(|v| v.re));
+                t.set_column(jj, &col.map(|v| v.im));
+            }
+        }
+    }
+    t
+}
+
+/// Real block-diagonal `Λ` matching [`real_form`]: `λ` for a real pole,
+/// `[[α, β], [−β, α]]` on rows/columns (j, j̄) for `α ± iβ`, so that `M T = T Λ`.
+fn real_lambda(poles: &[Pole]) -> DMatrix<f64> {
+    let n = poles.len();
+    let mut lam = DMatrix::<f64>::zeros(n, n);
+    for (j, pl) in poles.iter().enumerate() {
+        if pl.value.im == 0.0 {
+            lam[(j, j)] = pl.value.re;
+        } else if let (true, Some(jj)) = (pl.leads(), pl.partner) {
+            if jj < n {
+                let (al, be) = (pl.value.re, pl.value.im);
+                lam[(j, j)] = al;
+                lam[(j, jj)] = be;
+                lam[(jj, j)] = -be;
+                lam[(jj, jj)] = al;
+            }
+        }
+    }
+    lam
+}
+
+/// `|det|` of `t` with unit columns (KNV's measure of robustness; 1 for an
+/// orthogonal `t`, 0 for a singular one).
+fn normalised_det(t: &DMatrix<f64>) -> f64 {
+    let mut u = t.clone();
+    for mut c in u.column_iter_mut() {
+        let nrm = c.norm();
+        if nrm > 0.0 {
+            c /= nrm;
+        }
+    }
+    u.lu().determinant().abs()
+}
+
 /// KNV method 0 for `A − B K` (`b` n×m of full column rank).
 fn knv_state_feedback(
     a: &DMatrix<f64>,
@@ -334,45 +390,78 @@ fn knv_state_feedback(
             }
         }
     }
-    // Starting X: basis vector `occurrence mod m` of each Sⱼ.
+    // Starting X: basis vector `occurrence mod m` of each Sⱼ for a real pole;
+    // for a complex leader, (s_a + i s_b)/√2 from two basis vectors so that
+    // Re x and Im x are independent even when Sⱼ happens to be real.
     let mut x = DMatrix::<C64>::zeros(n, n);
     for (j, (pl, s)) in poles.iter().zip(&bases).enumerate() {
-        if s.ncols() > 0 {
-            let col = pl.occurrence % s.ncols();
-            x.set_column(j, &s.column(col));
+        let k = s.ncols();
+        if k == 0 {
+            continue;
+        }
+        if pl.value.im > 0.0 && k >= 2 {
+            let a = (2 * pl.occurrence) % k;
+            let b = (2 * pl.occurrence + 1) % k;
+            let v =
+                (s.column(a) + s.column(b) * C64::new(0.0, 1.0)) * C64::new(0.5_f64.sqrt(), 0.0);
+            x.set_column(j, &v);
+        } else {
+            x.set_column(j, &s.column(pl.occurrence % k));
+        }
+        if let (true, Some(jj)) = (pl.value.im > 0.0, pl.partner) {
+            let v = x.column(j).map(|v| v.conj());
+            if jj < n {
+                x.set_column(jj, &v);
+            }
         }
     }
     let mut sweeps = 0;
     if m > 1 {
-        let mut det_old = x.clone().lu().determinant().norm();
+        let mut det_old = normalised_det(&real_form(&x, poles));
         while sweeps < max_sweeps {
             sweeps += 1;
             for (j, (pl, s)) in poles.iter().zip(&bases).enumerate() {
                 if !pl.leads() {
                     continue;
                 }
-                let others = x.clone().remove_column(j);
-                let y = complement(&others);
-                let y = y.column(0).into_owned();
+                // Real basis of the complement of all other (real-form)
+                // columns: one vector for a real pole, two for a pair.
+                let t = real_form(&x, poles);
+                let mut drop = vec![j];
+                if let (true, Some(jj)) = (pl.value.im > 0.0, pl.partner) {
+                    drop.push(jj);
+                }
+                drop.sort_unstable();
+                let q = to_c(&complement(&t.remove_columns_at(&drop)));
                 let proj = |v: &DMatrix<C64>| s * (s.adjoint() * v);
-                let y = DMatrix::from_column_slice(n, 1, y.as_slice());
-                let cand = if pl.value.im == 0.0 {
-                    let re = proj(&y.map(|v| C64::new(v.re, 0.0)));
-                    let im = proj(&y.map(|v| C64::new(v.im, 0.0)));
-                    if re.norm() >= im.norm() { re } else { im }
+                let cand = if q.ncols() >= 2 {
+                    // x ∝ P_S (q₁ ± i q₂): Re x ⊥ Im x with equal norms
+                    // before projection, i.e. x ⊥ conj(x).
+                    let i = C64::new(0.0, 1.0);
+                    let plus = proj(&(q.columns(0, 1) + q.columns(1, 1) * i));
+                    let minus = proj(&(q.columns(0, 1) - q.columns(1, 1) * i));
+                    if plus.norm() >= minus.norm() {
+                        plus
+                    } else {
+                        minus
+                    }
+                } else if q.ncols() == 1 {
+                    proj(&q.columns(0, 1).into_owned())
                 } else {
-                    proj(&y)
+                    continue;
                 };
                 let norm = cand.norm();
                 if norm > 1.0e-12 {
                     let cand = cand / C64::new(norm, 0.0);
                     x.set_column(j, &cand.column(0));
-                    if let Some(jj) = pl.partner {
-                        x.set_column(jj, &cand.column(0).map(|v| v.conj()));
+                    if let (true, Some(jj)) = (pl.value.im > 0.0, pl.partner) {
+                        if jj < n {
+                            x.set_column(jj, &cand.column(0).map(|v| v.conj()));
+                        }
                     }
                 }
             }
-            let det = x.clone().lu().determinant().norm();
+            let det = normalised_det(&real_form(&x, poles));
             let done = (det - det_old).abs() <= 1.0e-10 * det;
             det_old = det;
             if done {
@@ -380,28 +469,8 @@ fn knv_state_feedback(
             }
         }
     }
-    // Real assembly: T columns and block-diagonal real Λ.
-    let mut t = DMatrix::<f64>::zeros(n, n);
-    let mut lam = DMatrix::<f64>::zeros(n, n);
-    for (j, pl) in poles.iter().enumerate() {
-        let col = x.column(j);
-        match (pl.value.im == 0.0, pl.leads(), pl.partner) {
-            (true, _, _) => {
-                t.set_column(j, &col.map(|v| v.re));
-                lam[(j, j)] = pl.value.re;
-            }
-            (false, true, Some(jj)) if jj < n => {
-                t.set_column(j, &col.map(|v| v.re));
-                t.set_column(jj, &col.map(|v| v.im));
-                let (al, be) = (pl.value.re, pl.value.im);
-                lam[(j, j)] = al;
-                lam[(j, jj)] = be;
-                lam[(jj, j)] = -be;
-                lam[(jj, jj)] = al;
-            }
-            _ => {}
-        }
-    }
+    let t = real_form(&x, poles);
+    let lam = real_lambda(poles);
     let st = checks::singular_values("eigenvector matrix X", &t)?;
     let smax = st.first().copied().unwrap_or(0.0);
     let smin = st.last().copied().unwrap_or(0.0);
