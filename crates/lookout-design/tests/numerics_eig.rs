@@ -124,7 +124,7 @@ fn badly_scaled_similarity_recovers_known_eigenvalues() {
         g[(k + 1, k + 1)] = th.cos();
         g[(k, k + 1)] = -th.sin();
         g[(k + 1, k)] = th.sin();
-        q = q * g;
+        q *= g;
     }
     let k = &q * &t * q.transpose();
     let d: Vec<f64> = (0..n)

@@ -136,6 +136,7 @@ fn scipy_fixtures_expm_zoh_van_loan() {
     let fx = fixture();
     assert!(fx.cases.len() >= 10);
     assert!(!fx.scipy_version.is_empty() && !fx.numpy_version.is_empty());
+    let mut worst = (0.0_f64, String::new());
     for case in &fx.cases {
         let (a, b, g, qc) = (m(&case.A), m(&case.B), m(&case.G), m(&case.Qc));
         let e = expm("A T", &(&a * case.T)).unwrap();
@@ -151,8 +152,15 @@ fn scipy_fixtures_expm_zoh_van_loan() {
                 "{}: {what} relative difference {r:e}",
                 case.name
             );
+            if r > worst.0 {
+                worst = (r, format!("{} {what}", case.name));
+            }
         }
     }
+    eprintln!(
+        "worst relative difference to SciPy: {:e} ({})",
+        worst.0, worst.1
+    );
 }
 
 #[test]

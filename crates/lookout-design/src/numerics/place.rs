@@ -306,11 +306,11 @@ fn real_form(x: &DMatrix<C64>, poles: &[Pole]) -> DMatrix<f64> {
         let col = x.column(j);
         if pl.value.im == 0.0 {
             t.set_column(j, &col.map(|v| v.re));
-        } else if let (true, Some(jj)) = (pl.leads(), pl.partner) {
-            if jj < t.ncols() {
-                t.set_column(j, &col.map(|v| v.re));
-                t.set_column(jj, &col.map(|v| v.im));
-            }
+        } else if let (true, Some(jj)) = (pl.leads(), pl.partner)
+            && jj < t.ncols()
+        {
+            t.set_column(j, &col.map(|v| v.re));
+            t.set_column(jj, &col.map(|v| v.im));
         }
     }
     t
@@ -324,14 +324,14 @@ fn real_lambda(poles: &[Pole]) -> DMatrix<f64> {
     for (j, pl) in poles.iter().enumerate() {
         if pl.value.im == 0.0 {
             lam[(j, j)] = pl.value.re;
-        } else if let (true, Some(jj)) = (pl.leads(), pl.partner) {
-            if jj < n {
-                let (al, be) = (pl.value.re, pl.value.im);
-                lam[(j, j)] = al;
-                lam[(j, jj)] = be;
-                lam[(jj, j)] = -be;
-                lam[(jj, jj)] = al;
-            }
+        } else if let (true, Some(jj)) = (pl.leads(), pl.partner)
+            && jj < n
+        {
+            let (al, be) = (pl.value.re, pl.value.im);
+            lam[(j, j)] = al;
+            lam[(j, jj)] = be;
+            lam[(jj, j)] = -be;
+            lam[(jj, jj)] = al;
         }
     }
     lam
@@ -454,10 +454,10 @@ fn knv_state_feedback(
                 if norm > 1.0e-12 {
                     let cand = cand / C64::new(norm, 0.0);
                     x.set_column(j, &cand.column(0));
-                    if let (true, Some(jj)) = (pl.value.im > 0.0, pl.partner) {
-                        if jj < n {
-                            x.set_column(jj, &cand.column(0).map(|v| v.conj()));
-                        }
+                    if let (true, Some(jj)) = (pl.value.im > 0.0, pl.partner)
+                        && jj < n
+                    {
+                        x.set_column(jj, &cand.column(0).map(|v| v.conj()));
                     }
                 }
             }
