@@ -1,1 +1,18 @@
-//! Integration tests, benchmarks and examples across the lookout crates live in `tests/`, `benches/` and `examples/`.
+//! Integration tests, benchmarks and examples across the lookout crates live
+//! in `tests/`, `benches/` and `examples/`; this library holds the demo
+//! tables that `build.rs` generates from `examples/*.toml`.
+
+/// Tables of `examples/conveyor.toml` in `f32`.
+pub mod conveyor_f32 {
+    include!(concat!(env!("OUT_DIR"), "/conveyor_f32.rs"));
+}
+
+/// Tables of `examples/conveyor.toml` in `f64`.
+pub mod conveyor_f64 {
+    include!(concat!(env!("OUT_DIR"), "/conveyor_f64.rs"));
+}
+
+/// Tables of `examples/conveyor_kalman.toml` in `f64`.
+pub mod conveyor_kalman_f64 {
+    include!(concat!(env!("OUT_DIR"), "/conveyor_kalman_f64.rs"));
+}

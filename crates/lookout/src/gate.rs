@@ -17,6 +17,12 @@ use crate::{ChannelMask, Matrix, Real};
 /// freedom), with 2 multiplies per channel.
 ///
 /// A measurement that fails is not applied at all (no channel of it).
+///
+/// Caution: the limit assumes the estimate is already consistent. From a
+/// poor initial estimate (start-up, after a fault) every reading can fail
+/// and the observer never converges; start gated observers from a good
+/// estimate ([`set_state`](crate::PredictorObserver::set_state)), or run
+/// ungated tables until the innovation has settled.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct Gate<T, const P: usize> {
     /// S⁻¹, the inverse of the steady-state innovation covariance, in

@@ -23,8 +23,8 @@ mod warnings;
 pub use error::DesignError;
 pub use warnings::Warning;
 
-use crate::model::{Domain, Form, Model};
-use crate::numerics::{self, ObservabilityReport};
+use crate::model::{Domain, Form, GainSource, Model};
+use crate::numerics::{self, NumericsError, ObservabilityReport};
 use nalgebra::{Complex, DMatrix};
 use std::path::Path;
 
@@ -182,8 +182,26 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         Domain::Discrete => (plant.a.clone(), plant.b.clone()),
     };
     let (cd, dd) = (plant.c.clone(), plant.d.clone());
-    let observability =
-        numerics::observability(&ad, &cd).map_err(fail("observability of (Ad, Cd)"))?;
+    let mut early_warnings = Vec::new();
+    let observability = match numerics::observability(&ad, &cd) {
+        Ok(report) => report,
+        // A Kalman design needs detectability only: a stable unobservable
+        // mode is allowed (the Riccati solver refuses an unstable one).
+        Err(NumericsError::Unobservable { eigenvalue, .. })
+            if matches!(model.observer.gain_source, GainSource::Kalman(_))
+                && eigenvalue.norm() < 1.0 =>
+        {
+            early_warnings.push(Warning::new(
+                "observability",
+                format!(
+                    "mode {:.6} {:+.6}i cannot be seen from the outputs; it is stable, so the Kalman design goes on, but its estimation error only decays at the mode's own rate",
+                    eigenvalue.re, eigenvalue.im
+                ),
+            ));
+            unobservable_report(&ad, &cd).map_err(fail("observability of (Ad, Cd)"))?
+        }
+        Err(e) => return Err(fail("observability of (Ad, Cd)")(e)),
+    };
     let plant_poles = numerics::eigenvalues("Ad", &ad).map_err(fail("eigenvalues of Ad"))?;
 
     let designed = gain::design(&model, origin, &ad, &bd, &cd, &dd)?;
@@ -228,7 +246,10 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         warnings: Vec::new(),
         model,
     };
-    design.warnings = warnings::collect(&design, designed.warnings);
+    design.warnings = early_warnings;
+    design
+        .warnings
+        .extend(warnings::collect(&design, designed.warnings));
     if design.model.observer.form == Form::Current && design.gain.is_none() {
         // The hold method defines the fused recursion only.
         design.warnings.push(Warning::new(
@@ -237,6 +258,29 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         ));
     }
     Ok(design)
+}
+
+/// Rank and singular values of the observability matrix when some mode is
+/// unobservable (the PBH analysis has refused it).
+fn unobservable_report(
+    ad: &DMatrix<f64>,
+    cd: &DMatrix<f64>,
+) -> Result<ObservabilityReport, NumericsError> {
+    let o = numerics::observability::observability_matrix(ad, cd)?;
+    let singular_values: Vec<f64> = o.singular_values().iter().copied().collect();
+    let top = singular_values.iter().copied().fold(0.0, f64::max);
+    let rank_tolerance = o.nrows().max(o.ncols()) as f64 * f64::EPSILON * top;
+    Ok(ObservabilityReport {
+        rank: singular_values
+            .iter()
+            .filter(|&&s| s > rank_tolerance)
+            .count(),
+        rank_tolerance,
+        singular_values,
+        condition: f64::INFINITY,
+        modes: Vec::new(),
+        warnings: Vec::new(),
+    })
 }
 
 /// FNV-1a, 64 bits (Fowler–Noll–Vo; offset basis and prime as published).
