@@ -16,3 +16,8 @@ pub mod conveyor_f64 {
 pub mod conveyor_kalman_f64 {
     include!(concat!(env!("OUT_DIR"), "/conveyor_kalman_f64.rs"));
 }
+
+/// The README's Rust examples, run as doctests.
+#[doc = include_str!("../README.md")]
+#[cfg(doctest)]
+pub struct ReadmeDoctests;
