@@ -233,3 +233,90 @@ fn refuses_bad_input() {
         Err(E::Empty { .. })
     ));
 }
+
+/// Regression: two sparse 0/1 matrices (n = 16) from our own stress run that
+/// exhausted an EISPACK-sized budget of 60 iterations per eigenvalue
+/// (clustered defective eigenvalues converge linearly). They must now succeed;
+/// checked by the invariants Σλ = trace (≤ 64·n·ε·‖A‖_F) and the count.
+#[test]
+fn regression_sparse_zero_one_matrices_need_lapack_budget() {
+    let cases: [&[(usize, usize)]; 2] = [
+        &[
+            (0, 2),
+            (0, 4),
+            (0, 10),
+            (2, 6),
+            (2, 9),
+            (2, 15),
+            (3, 0),
+            (4, 1),
+            (5, 3),
+            (6, 1),
+            (6, 13),
+            (6, 15),
+            (8, 7),
+            (10, 0),
+            (10, 1),
+            (10, 3),
+            (10, 7),
+            (10, 9),
+            (10, 13),
+            (11, 8),
+            (11, 11),
+            (12, 1),
+            (13, 6),
+            (13, 7),
+            (13, 14),
+            (14, 3),
+            (14, 9),
+            (15, 6),
+            (15, 10),
+            (15, 11),
+        ],
+        &[
+            (0, 0),
+            (0, 7),
+            (0, 14),
+            (1, 0),
+            (1, 11),
+            (2, 6),
+            (2, 9),
+            (2, 12),
+            (2, 14),
+            (3, 5),
+            (4, 3),
+            (4, 5),
+            (4, 6),
+            (4, 11),
+            (5, 0),
+            (5, 11),
+            (6, 2),
+            (6, 15),
+            (7, 12),
+            (7, 14),
+            (7, 15),
+            (8, 2),
+            (8, 14),
+            (9, 11),
+            (11, 9),
+            (12, 5),
+            (13, 1),
+            (15, 14),
+            (15, 15),
+        ],
+    ];
+    for nz in cases {
+        let mut a = DMatrix::<f64>::zeros(16, 16);
+        for &(i, j) in nz {
+            a[(i, j)] = 1.0;
+        }
+        let ev = eigenvalues("A", &a).unwrap();
+        assert_eq!(ev.len(), 16);
+        let tr: Complex<f64> = ev.iter().sum();
+        assert!(
+            (tr.re - a.trace()).abs() <= 64.0 * 16.0 * EPS * a.norm(),
+            "{tr}"
+        );
+        assert!(tr.im.abs() <= 64.0 * 16.0 * EPS * a.norm());
+    }
+}
