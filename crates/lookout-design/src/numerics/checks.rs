@@ -190,3 +190,24 @@ pub(crate) fn norm1(m: &DMatrix<f64>) -> f64 {
         .map(|c| c.iter().map(|v| v.abs()).sum::<f64>())
         .fold(0.0, f64::max)
 }
+
+/// `m⁻¹ rhs` by LU with partial pivoting. On failure (an exactly zero pivot)
+/// the error carries the pivot growth estimate `min|uᵢᵢ| / max|uᵢᵢ|`.
+pub(crate) fn lu_solve(
+    matrix: &'static str,
+    m: &DMatrix<f64>,
+    rhs: &DMatrix<f64>,
+) -> Result<DMatrix<f64>> {
+    let lu = m.clone().lu();
+    lu.solve(rhs).ok_or_else(|| {
+        let u = lu.u();
+        let d = u.diagonal();
+        let top = d.iter().fold(0.0_f64, |a, v| a.max(v.abs()));
+        let bottom = d.iter().fold(f64::INFINITY, |a, v| a.min(v.abs()));
+        NumericsError::Singular {
+            matrix,
+            estimate: if top > 0.0 { bottom / top } else { 0.0 },
+            threshold: 0.0,
+        }
+    })
+}

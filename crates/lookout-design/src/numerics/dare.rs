@@ -67,11 +67,7 @@ pub struct KalmanGains {
 }
 
 fn solve(name: &'static str, m: &DMatrix<f64>, rhs: &DMatrix<f64>) -> Result<DMatrix<f64>> {
-    m.clone().lu().solve(rhs).ok_or(NumericsError::Singular {
-        matrix: name,
-        estimate: 0.0,
-        threshold: 0.0,
-    })
+    checks::lu_solve(name, m, rhs)
 }
 
 /// Relative residual of the filter DARE at `p`.

@@ -111,11 +111,7 @@ pub fn expm(name: &'static str, m: &DMatrix<f64>) -> Result<DMatrix<f64>> {
     let (u, v) = pade_parts(&scaled, degree);
     let num = &v + &u;
     let den = &v - &u;
-    let mut r = den.lu().solve(&num).ok_or(NumericsError::Singular {
-        matrix: name,
-        estimate: 0.0,
-        threshold: 0.0,
-    })?;
+    let mut r = checks::lu_solve(name, &den, &num)?;
     for _ in 0..squarings {
         r = &r * &r;
     }
