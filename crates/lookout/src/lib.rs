@@ -76,6 +76,18 @@
 //! };
 //! ```
 //!
+//! # Fixed point
+//!
+//! For targets without an FPU, or firmware that must be bit-reproducible,
+//! [`FixedPredictorObserver`], [`FixedCurrentObserver`] and
+//! [`FixedFusedObserver`] run the same updates in [`Q15`] or [`Q31`] with
+//! integer arithmetic only: an exact wide accumulator per output element, one
+//! rounding (half up), saturating stores counted in [`Status::saturations`].
+//! The number format, scaling rules, accumulator headroom and the conversion
+//! of raw ADC counts are documented once, on [`Fixed`]; each observer states
+//! its error per step in LSB. Host code builds the Q tables from float tables
+//! with `from_float` (e.g. [`FixedPredictorTables::from_float`]).
+//!
 //! # Features
 //!
 //! None by default. `nalgebra`: conversions between [`Matrix`] and
@@ -97,6 +109,7 @@
 
 mod chi_square;
 mod current;
+mod fixed;
 mod fused;
 mod gate;
 mod matrix;
@@ -108,6 +121,11 @@ mod tables;
 
 pub use chi_square::chi_square_limit;
 pub use current::CurrentObserver;
+pub use fixed::{
+    ConvertError, Fixed, FixedCurrentObserver, FixedCurrentTables, FixedFusedObserver,
+    FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Q15,
+    Q31, Scales, TableName, Wide,
+};
 pub use fused::FusedObserver;
 pub use gate::Gate;
 pub use matrix::Matrix;
