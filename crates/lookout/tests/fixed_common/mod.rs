@@ -2,6 +2,8 @@
 //! systems in normalised coordinates, and conversions between normalised
 //! and physical tables written independently of the runtime's converter.
 #![allow(dead_code)]
+// Index loops read like the formulas they implement.
+#![allow(clippy::needless_range_loop)]
 
 use lookout::Fixed;
 
