@@ -12,14 +12,14 @@ use crate::{ChannelMask, CurrentTables, Outcome, Real, Status};
 /// ```
 ///
 /// With K the steady-state Kalman gain this is the steady-state Kalman
-/// filter. On an exact model the errors obey e[k+1|k] = A (I − K C) e[k|k−1]
-/// and e[k|k] = (I − K C) A e[k−1|k−1].
+/// filter. On an exact model the errors obey e\[k+1|k\] = A (I − K C) e\[k|k−1\]
+/// and e\[k|k\] = (I − K C) A e\[k−1|k−1\].
 ///
-/// Both estimates are readable: [`filtered`](Self::filtered) is x̂[k|k],
-/// [`predicted`](Self::predicted) is x̂[k+1|k] after a full step.
+/// Both estimates are readable: [`filtered`](Self::filtered) is x̂\[k|k\],
+/// [`predicted`](Self::predicted) is x̂\[k+1|k\] after a full step.
 ///
-/// A control loop that computes u[k] from x̂[k|k] calls
-/// [`correct`](Self::correct) with the measurement, computes u[k], then calls
+/// A control loop that computes u\[k\] from x̂\[k|k\] calls
+/// [`correct`](Self::correct) with the measurement, computes u\[k\], then calls
 /// [`predict`](Self::predict) with it (`correct` then uses its input only for
 /// the D term, so with D ≠ 0 pass the input that will be applied).
 /// [`step`](Self::step) does both with one input.
@@ -40,7 +40,7 @@ pub struct CurrentObserver<'t, T, const N: usize, const M: usize, const P: usize
 }
 
 impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserver<'t, T, N, M, P> {
-    /// An observer on `tables` whose prediction x̂[0|−1] is `x0`.
+    /// An observer on `tables` whose prediction x̂\[0|−1\] is `x0`.
     pub const fn new(tables: &'t CurrentTables<T, N, M, P>, x0: [T; N]) -> Self {
         const { assert!(P <= 32, "an observer has at most 32 outputs") };
         Self {
@@ -67,7 +67,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
         status
     }
 
-    /// Measurement update: x̂[k|k] = x̂[k|k−1] + K r[k].
+    /// Measurement update: x̂\[k|k\] = x̂\[k|k−1\] + K r\[k\].
     pub fn correct(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
         if !all_finite(u) {
             return Status::rejected_input(P);
@@ -91,11 +91,11 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
         status
     }
 
-    /// Time update x̂[k+1|k] = A x̂[k|k] + B u[k].
+    /// Time update x̂\[k+1|k\] = A x̂\[k|k\] + B u\[k\].
     ///
     /// Returns the status of the [`correct`](Self::correct) since the last
     /// prediction; without one the sample counts as having no measurement
-    /// (x̂[k|k] = x̂[k|k−1]). A non-finite input is refused, state untouched.
+    /// (x̂\[k|k\] = x̂\[k|k−1\]). A non-finite input is refused, state untouched.
     pub fn predict(&mut self, u: &[T; M]) -> Status {
         if !all_finite(u) {
             return Status::rejected_input(P);
@@ -121,12 +121,12 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
         self.pending = None;
     }
 
-    /// x̂[k|k], the estimate of the current sample after the last correction.
+    /// x̂\[k|k\], the estimate of the current sample after the last correction.
     pub const fn filtered(&self) -> &[T; N] {
         &self.filtered
     }
 
-    /// x̂[k+1|k], the prediction for the next sample.
+    /// x̂\[k+1|k\], the prediction for the next sample.
     pub const fn predicted(&self) -> &[T; N] {
         &self.predicted
     }

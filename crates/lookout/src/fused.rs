@@ -3,12 +3,12 @@
 use crate::measurement::{all_finite, usable};
 use crate::{ChannelMask, FusedTables, Outcome, Real, Status};
 
-/// Discrete observer on fused tables: x̂[k+1] = F x̂[k] + G u[k] + H y[k].
+/// Discrete observer on fused tables: x̂\[k+1\] = F x̂\[k\] + G u\[k\] + H y\[k\].
 ///
 /// With every channel present and no gate, one step costs exactly
 /// N·N + N·M + N·P multiply-adds: the least any linear observer of this size
 /// can do. See [`FusedTables`] for F, G, H of both observer forms; the state
-/// is x̂[k] (for a current-form design, the prediction x̂[k|k−1]).
+/// is x̂\[k\] (for a current-form design, the prediction x̂\[k|k−1\]).
 ///
 /// A missing channel j (masked or not finite) is replaced by its prediction
 /// ŷ_j = C_j x̂ + D_j u (N + M more multiply-adds), which removes exactly its
@@ -113,7 +113,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
         self.step_masked(u, &[T::ZERO; P], ChannelMask::NONE)
     }
 
-    /// The estimate x̂[k].
+    /// The estimate x̂\[k\].
     pub const fn estimate(&self) -> &[T; N] {
         &self.x
     }

@@ -5,16 +5,16 @@ use crate::{ChannelMask, PredictorTables, Real, Status};
 
 /// Discrete predictor (Luenberger) observer.
 ///
-/// Update, with r[k] the innovation:
+/// Update, with r\[k\] the innovation:
 ///
 /// ```text
 /// r[k]    = y[k] − C x̂[k] − D u[k]
 /// x̂[k+1] = A x̂[k] + B u[k] + L r[k]
 /// ```
 ///
-/// so the estimation error e = x − x̂ obeys e[k+1] = (A − L C) e[k] on an
-/// exact model. The state is x̂[k], the estimate of x[k] from measurements up
-/// to k − 1; after [`step`](Self::step) it holds x̂[k+1].
+/// so the estimation error e = x − x̂ obeys e\[k+1\] = (A − L C) e\[k\] on an
+/// exact model. The state is x̂\[k\], the estimate of x\[k\] from measurements up
+/// to k − 1; after [`step`](Self::step) it holds x̂\[k+1\].
 ///
 /// Cost per step: N·N + N·M + 2·N·P + P·M multiply-adds, plus P·P + P when
 /// the tables have a gate; [`predict`](Self::predict) costs N·N + N·M. The
@@ -85,7 +85,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
         self.step_masked(u, &[T::ZERO; P], ChannelMask::NONE)
     }
 
-    /// The estimate x̂[k] (the state after the last step).
+    /// The estimate x̂\[k\] (the state after the last step).
     pub const fn estimate(&self) -> &[T; N] {
         &self.x
     }

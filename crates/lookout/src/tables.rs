@@ -6,7 +6,7 @@
 
 use crate::{Gate, Matrix};
 
-/// The sampled plant model x[k+1] = A x[k] + B u[k], y[k] = C x[k] + D u[k].
+/// The sampled plant model x\[k+1\] = A x\[k\] + B u\[k\], y\[k\] = C x\[k\] + D u\[k\].
 ///
 /// N states, M inputs, P outputs; units are the model's own.
 #[derive(Clone, Copy, Debug, PartialEq)]
@@ -26,7 +26,7 @@ pub struct Plant<T, const N: usize, const M: usize, const P: usize> {
 pub struct PredictorTables<T, const N: usize, const M: usize, const P: usize> {
     /// The sampled plant.
     pub plant: Plant<T, N, M, P>,
-    /// L, N × P: the predictor gain, x̂[k+1] = A x̂[k] + B u[k] + L r[k].
+    /// L, N × P: the predictor gain, x̂\[k+1\] = A x̂\[k\] + B u\[k\] + L r\[k\].
     pub l: Matrix<T, N, P>,
     /// Optional innovation gate.
     pub gate: Option<Gate<T, P>>,
@@ -38,7 +38,7 @@ pub struct PredictorTables<T, const N: usize, const M: usize, const P: usize> {
 pub struct CurrentTables<T, const N: usize, const M: usize, const P: usize> {
     /// The sampled plant.
     pub plant: Plant<T, N, M, P>,
-    /// K, N × P: the measurement-update gain, x̂[k|k] = x̂[k|k−1] + K r[k].
+    /// K, N × P: the measurement-update gain, x̂\[k|k\] = x̂\[k|k−1\] + K r\[k\].
     pub k: Matrix<T, N, P>,
     /// Optional innovation gate.
     pub gate: Option<Gate<T, P>>,
@@ -48,7 +48,7 @@ pub struct CurrentTables<T, const N: usize, const M: usize, const P: usize> {
 ///
 /// For a predictor gain L: F = A − L C, G = B − L D, H = L.
 /// For a current-form gain K the recursion of the predicted estimate
-/// x̂[k+1|k] is the same with L = A K: F = A − A K C, G = B − A K D, H = A K.
+/// x̂\[k+1|k\] is the same with L = A K: F = A − A K C, G = B − A K D, H = A K.
 /// C and D are kept to stand in for missing channels and for the gate.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct FusedTables<T, const N: usize, const M: usize, const P: usize> {
