@@ -21,6 +21,11 @@ fn main() {
             lookout_design::Scalar::F64,
             "conveyor_kalman_f64.rs",
         ),
+        (
+            "examples/conveyor_load.toml",
+            lookout_design::Scalar::F64,
+            "conveyor_load_f64.rs",
+        ),
     ] {
         println!("cargo:rerun-if-changed={model}");
         match lookout_design::emit_file(Path::new(model), &out_dir.join(file), scalar) {

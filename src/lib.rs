@@ -17,6 +17,12 @@ pub mod conveyor_kalman_f64 {
     include!(concat!(env!("OUT_DIR"), "/conveyor_kalman_f64.rs"));
 }
 
+/// Tables of `examples/conveyor_load.toml` (the conveyor with its load
+/// torque as a disturbance state) in `f64`.
+pub mod conveyor_load_f64 {
+    include!(concat!(env!("OUT_DIR"), "/conveyor_load_f64.rs"));
+}
+
 /// The README's Rust examples, run as doctests.
 #[doc = include_str!("../README.md")]
 #[cfg(doctest)]

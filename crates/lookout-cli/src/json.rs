@@ -41,6 +41,7 @@ pub fn design(d: &Design) -> String {
         "n": d.n(),
         "m": d.m(),
         "p": d.p(),
+        "state_names": d.state_names(),
         "ad": matrix(&d.ad),
         "bd": matrix(&d.bd),
         "cd": matrix(&d.cd),
@@ -65,4 +66,24 @@ pub fn design(d: &Design) -> String {
         "warnings": d.warnings.iter().map(ToString::to_string).collect::<Vec<_>>(),
     });
     format!("{value}\n")
+}
+
+#[cfg(test)]
+mod tests {
+    /// Issue 9: every estimated state is labelled, disturbance states by
+    /// their own names, in state order.
+    #[test]
+    fn json_labels_every_state() {
+        let path = std::path::Path::new(concat!(
+            env!("CARGO_MANIFEST_DIR"),
+            "/../../examples/conveyor_load.toml"
+        ));
+        let d = lookout_design::design_file(path).unwrap();
+        let v: serde_json::Value = serde_json::from_str(&super::design(&d)).unwrap();
+        assert_eq!(
+            v["state_names"],
+            serde_json::json!(["angle", "speed", "load_torque"])
+        );
+        assert_eq!(v["n"], 3);
+    }
 }

@@ -1,6 +1,7 @@
 //! The gain sources of a model: placed poles, a continuous gain, or a
 //! steady-state Kalman design; and the gate tables.
 
+use super::augment::Augmented;
 use super::{DesignError, GateDesign, HoldMismatch, KalmanResult};
 use crate::model::{Domain, Form, GainMethod, GainSource, Gate, Model};
 use crate::numerics::{self, NumericsError, NumericsWarning};
@@ -44,8 +45,11 @@ fn unsupported(origin: &str, key: &'static str, message: impl Into<String>) -> D
     }
 }
 
+/// The gain for `sys` (the plant, or the plant with its disturbance states)
+/// sampled as `ad`, `bd`, `cd`, `dd`.
 pub(super) fn design(
     model: &Model,
+    sys: &Augmented,
     origin: &str,
     ad: &DMatrix<f64>,
     bd: &DMatrix<f64>,
@@ -62,15 +66,27 @@ pub(super) fn design(
         }
         GainSource::DiscretePoles(z) => placed(origin, form, &sampled, z.clone()),
         GainSource::Gain { l, method } => {
-            let plant = &model.plant;
-            if plant.domain == Domain::Discrete {
+            if model.plant.domain == Domain::Discrete {
                 return Err(unsupported(
                     origin,
                     "observer.gain",
                     "a continuous-time gain needs a continuous plant; with plant.domain = \"discrete\" give discrete_poles instead",
                 ));
             }
-            let a_lc = &plant.a - l * &plant.c;
+            if l.shape() != (sys.a.nrows(), sys.c.nrows()) {
+                return Err(unsupported(
+                    origin,
+                    "observer.gain",
+                    format!(
+                        "the gain is {} × {} but the observer estimates {} states from {} outputs",
+                        l.nrows(),
+                        l.ncols(),
+                        sys.a.nrows(),
+                        sys.c.nrows()
+                    ),
+                ));
+            }
+            let a_lc = &sys.a - l * &sys.c;
             match method {
                 GainMethod::PoleMap => {
                     let s = numerics::eigenvalues("A − L C", &a_lc)
@@ -92,11 +108,11 @@ pub(super) fn design(
                         s.iter().map(|s| (s * t).exp()).collect(),
                     )
                 }
-                GainMethod::Hold => held(origin, model, &sampled, l, &a_lc),
+                GainMethod::Hold => held(origin, model, sys, &sampled, l, &a_lc),
             }
         }
         GainSource::Kalman(spec) => {
-            let qd = super::noise::process_noise_per_sample(origin, model, spec)?;
+            let qd = super::noise::process_noise_per_sample(origin, model, sys, spec)?;
             let kg = numerics::solve_filter_dare(ad, cd, &qd, &spec.measurement_noise).map_err(
                 numerics_error(origin, "steady-state Kalman gain (filter Riccati equation)"),
             )?;
@@ -167,16 +183,14 @@ fn fused(s: &Sampled<'_>, l: &DMatrix<f64>) -> (DMatrix<f64>, DMatrix<f64>, DMat
 fn held(
     origin: &str,
     model: &Model,
+    sys: &Augmented,
     s: &Sampled<'_>,
     l: &DMatrix<f64>,
     a_lc: &DMatrix<f64>,
 ) -> Result<Designed, DesignError> {
-    let plant = &model.plant;
-    let (m, p) = (plant.b.ncols(), plant.c.nrows());
-    let mut inputs = DMatrix::zeros(plant.a.nrows(), m + p);
-    inputs
-        .columns_mut(0, m)
-        .copy_from(&(&plant.b - l * &plant.d));
+    let (m, p) = (sys.b.ncols(), sys.c.nrows());
+    let mut inputs = DMatrix::zeros(sys.a.nrows(), m + p);
+    inputs.columns_mut(0, m).copy_from(&(&sys.b - l * &sys.d));
     inputs.columns_mut(m, p).copy_from(l);
     let (f, gh) = numerics::zoh(a_lc, &inputs, model.sample_period).map_err(numerics_error(
         origin,

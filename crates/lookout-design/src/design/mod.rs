@@ -14,10 +14,18 @@
 //!
 //! The error poles are the eigenvalues of F (for the current form these are
 //! also those of (I − K Cd) Ad, the filtered estimate's error matrix).
+//!
+//! With `[disturbances]` the plant is first augmented with its disturbance
+//! states (in the plant's own domain, so the hold samples them exactly; see
+//! `augment.rs`), every matrix above is that of the augmented system, and the
+//! design is refused when a disturbance cannot be told apart from another
+//! disturbance or from plant states (PBH at z = 1; see `separability.rs`).
 
+mod augment;
 mod error;
 mod gain;
 mod noise;
+mod separability;
 mod warnings;
 
 pub use error::DesignError;
@@ -38,7 +46,7 @@ pub struct Design {
     /// FNV-1a 64-bit hash of the model file's bytes, as 16 hex digits (an
     /// identifier for generated code, not a cryptographic digest).
     pub model_hash: String,
-    /// Sampled plant.
+    /// Sampled plant (with its disturbance states, if any: see [`Design::state_names`]).
     pub ad: DMatrix<f64>,
     /// Sampled input matrix.
     pub bd: DMatrix<f64>,
@@ -119,9 +127,14 @@ pub struct GateDesign {
 }
 
 impl Design {
-    /// Number of states.
+    /// Number of estimated states: the plant's and any disturbance states.
     pub fn n(&self) -> usize {
         self.ad.nrows()
+    }
+    /// Name of every estimated state, in state order: the plant's
+    /// `state_names` (or `x0`, `x1`, …), then the disturbance states.
+    pub fn state_names(&self) -> Vec<String> {
+        self.model.state_names()
     }
     /// Number of inputs.
     pub fn m(&self) -> usize {
@@ -174,14 +187,15 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         }
     };
     let t = model.sample_period;
-    let plant = &model.plant;
-    let (ad, bd) = match plant.domain {
+    let sys = augment::Augmented::of(&model, origin)?;
+    let (ad, bd) = match model.plant.domain {
         Domain::Continuous => {
-            numerics::zoh(&plant.a, &plant.b, t).map_err(fail("zero-order hold of (A, B)"))?
+            numerics::zoh(&sys.a, &sys.b, t).map_err(fail("zero-order hold of (A, B)"))?
         }
-        Domain::Discrete => (plant.a.clone(), plant.b.clone()),
+        Domain::Discrete => (sys.a.clone(), sys.b.clone()),
     };
-    let (cd, dd) = (plant.c.clone(), plant.d.clone());
+    let (cd, dd) = (sys.c.clone(), sys.d.clone());
+    separability::check(origin, &sys, &ad, &cd)?;
     let mut early_warnings = Vec::new();
     let observability = match numerics::observability(&ad, &cd) {
         Ok(report) => report,
@@ -204,7 +218,7 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
     };
     let plant_poles = numerics::eigenvalues("Ad", &ad).map_err(fail("eigenvalues of Ad"))?;
 
-    let designed = gain::design(&model, origin, &ad, &bd, &cd, &dd)?;
+    let designed = gain::design(&model, &sys, origin, &ad, &bd, &cd, &dd)?;
     let error_poles = numerics::eigenvalues("F", &designed.f).map_err(fail("eigenvalues of F"))?;
     let spectral_radius = error_poles.iter().map(|z| z.norm()).fold(0.0, f64::max);
     if spectral_radius >= 1.0 {

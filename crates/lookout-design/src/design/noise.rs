@@ -2,24 +2,24 @@
 //! observer passes into its estimates.
 
 use super::DesignError;
+use super::augment::Augmented;
 use crate::model::{Domain, KalmanSpec, Model, NoiseDomain};
 use crate::numerics::{self, NumericsError};
 use nalgebra::DMatrix;
 
 /// Qd, the process noise covariance per sample: Van Loan's (1978) block
-/// exponential for a continuous spectral density, G Q Gᵀ for a per-sample one.
+/// exponential for a continuous spectral density, G Q Gᵀ for a per-sample one,
+/// with G and Q those of the augmented system `sys` (the plant's noise plus
+/// each disturbance's, see [`Augmented::process_noise`]).
 pub(super) fn process_noise_per_sample(
     origin: &str,
     model: &Model,
+    sys: &Augmented,
     spec: &KalmanSpec,
 ) -> Result<DMatrix<f64>, DesignError> {
-    let n = model.plant.a.nrows();
-    let g = spec
-        .noise_input
-        .clone()
-        .unwrap_or_else(|| DMatrix::identity(n, n));
+    let (g, q) = sys.process_noise(origin, spec)?;
     match spec.noise_domain {
-        NoiseDomain::Discrete => Ok(&g * &spec.process_noise * g.transpose()),
+        NoiseDomain::Discrete => Ok(&g * &q * g.transpose()),
         NoiseDomain::Continuous => {
             if model.plant.domain == Domain::Discrete {
                 return Err(DesignError::Unsupported {
@@ -28,17 +28,13 @@ pub(super) fn process_noise_per_sample(
                     message: "a continuous noise density needs a continuous plant; with plant.domain = \"discrete\" set noise_domain = \"discrete\"".into(),
                 });
             }
-            numerics::van_loan_process_noise(
-                &model.plant.a,
-                &g,
-                &spec.process_noise,
-                model.sample_period,
+            numerics::van_loan_process_noise(&sys.a, &g, &q, model.sample_period).map_err(
+                |source| DesignError::Numerics {
+                    origin: origin.to_string(),
+                    stage: "process noise per sample (Van Loan)",
+                    source,
+                },
             )
-            .map_err(|source| DesignError::Numerics {
-                origin: origin.to_string(),
-                stage: "process noise per sample (Van Loan)",
-                source,
-            })
         }
     }
 }

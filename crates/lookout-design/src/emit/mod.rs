@@ -124,23 +124,18 @@ fn source(d: &Design, scalar: Scalar) -> Option<String> {
         d.model.sample_period
     );
     let plant = &d.model.plant;
-    names(
-        &mut s,
-        "state",
-        "the estimate",
-        plant.state_names.as_deref(),
-    );
+    names(&mut s, "state", "the estimate", state_entries(d).as_deref());
     names(
         &mut s,
         "input",
         "the input vector",
-        plant.input_names.as_deref(),
+        plain(plant.input_names.as_deref()).as_deref(),
     );
     names(
         &mut s,
         "output",
         "the measurement vector",
-        plant.output_names.as_deref(),
+        plain(plant.output_names.as_deref()).as_deref(),
     );
 
     let gate = match &d.gate {
@@ -238,16 +233,57 @@ fn header(d: &Design, s: &mut String) {
     let _ = writeln!(s, "// spectral radius: {:.9}\n", d.spectral_radius);
 }
 
-fn names(s: &mut String, module: &str, what: &str, names: Option<&[String]>) {
-    let Some(names) = names else { return };
+/// Each name with its doc line, `` `name`. ``.
+fn plain(names: Option<&[String]>) -> Option<Vec<(String, String)>> {
+    names.map(|names| {
+        names
+            .iter()
+            .map(|name| (name.clone(), format!("`{name}`.")))
+            .collect()
+    })
+}
+
+/// The estimated states' names and doc lines: the plant's names, if given,
+/// and with `[disturbances]` every state (unnamed plant states as `x0`, …)
+/// with a line saying what each disturbance state is.
+fn state_entries(d: &Design) -> Option<Vec<(String, String)>> {
+    let plant = &d.model.plant;
+    let Some(dist) = d
+        .model
+        .disturbances
+        .as_ref()
+        .filter(|x| x.state_count() > 0)
+    else {
+        return plain(plant.state_names.as_deref());
+    };
+    let names = d.state_names();
+    let notes = dist.state_descriptions();
+    let first_disturbance = names.len().saturating_sub(notes.len());
+    Some(
+        names
+            .iter()
+            .enumerate()
+            .map(|(i, name)| {
+                let doc = match i.checked_sub(first_disturbance).and_then(|j| notes.get(j)) {
+                    Some(note) => format!("`{name}`: estimated {note}."),
+                    None => format!("`{name}`."),
+                };
+                (name.clone(), doc)
+            })
+            .collect(),
+    )
+}
+
+fn names(s: &mut String, module: &str, what: &str, entries: Option<&[(String, String)]>) {
+    let Some(entries) = entries else { return };
     let _ = writeln!(
         s,
         "    /// Index of each entry in {what}.\n    pub mod {module} {{"
     );
-    for (i, name) in names.iter().enumerate() {
+    for (i, (name, doc)) in entries.iter().enumerate() {
         let _ = writeln!(
             s,
-            "        /// `{name}`.\n        pub const {}: usize = {i};",
+            "        /// {doc}\n        pub const {}: usize = {i};",
             name.to_uppercase()
         );
     }

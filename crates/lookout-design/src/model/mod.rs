@@ -48,6 +48,15 @@
 //! # state_range = [64.0, 512.0]  # max |x_i| override, one per state
 //! # margin_bits = 1            # headroom bits, non-negative integer, default 1
 //! # stability_margin = 0.01    # allowed growth of the quantised error spectral radius
+//!
+//! # [[disturbances.input]]     # an unknown load, estimated as an extra state
+//! # name = "load_torque"       # identifier, distinct from the state names
+//! # column = [0.0, -1587.3]    # E, n entries; or input = 0 (adds to that input)
+//! # shape = "constant"         # or "ramp" (adds the state `load_torque_rate`)
+//! # noise = 1.0e-4             # driving-noise level, Kalman designs only
+//! # [[disturbances.output_bias]]
+//! # name = "encoder_offset"
+//! # output = 0
 //! ```
 //!
 //! Beyond the core keys, the extensions are: the signal names and units in
@@ -74,14 +83,19 @@
 //!   semidefinite, not below minus) 16 n ε × the largest eigenvalue
 //!   magnitude. Both are stored as their symmetric part.
 //! * A continuous `gain` or a continuous noise density needs a continuous plant.
+//! * With `[disturbances]` the observer estimates n + n_d states (n_d
+//!   disturbance states, see [`Disturbances`]): pole lists and a given `gain`
+//!   are for all of them; `process_noise` stays the plant's, each
+//!   disturbance bringing its own `noise`.
 //!
 //! # Layout
 //!
 //! One file per section (`plant`, `observer` with `poles` and `kalman`,
-//! `fixed_point`); a new top-level section is a new file read from
+//! `fixed_point`, `disturbances`); a new top-level section is a new file read from
 //! [`Model::from_toml_str`] and listed in `ROOT_KEYS`.
 
 mod definite;
+mod disturbances;
 mod error;
 mod fixed_point;
 mod ident;
@@ -93,16 +107,24 @@ mod reader;
 
 use std::path::Path;
 
+pub use disturbances::{Disturbances, Entry, InputDisturbance, OutputBias, Shape};
 pub use error::{Location, ModelError, ModelErrorKind, ModelWarning};
 pub use fixed_point::{DEFAULT_MARGIN_BITS, DEFAULT_STABILITY_MARGIN, FixedFormat, FixedPointSpec};
 pub use kalman::{KalmanSpec, NoiseDomain};
 pub use observer::{Form, GainMethod, GainSource, Gate, ObserverSpec};
 pub use plant::{Domain, Plant};
 
-use reader::{Node, Source, Table};
+use reader::{Dim, Node, Source, Table};
 
 /// Keys allowed at the top level of a model file.
-const ROOT_KEYS: &[&str] = &["name", "sample_period", "plant", "observer", "fixed_point"];
+const ROOT_KEYS: &[&str] = &[
+    "name",
+    "sample_period",
+    "plant",
+    "observer",
+    "fixed_point",
+    "disturbances",
+];
 
 /// A checked model file.
 #[derive(Debug, Clone, PartialEq)]
@@ -117,6 +139,8 @@ pub struct Model {
     pub observer: ObserverSpec,
     /// The fixed-point request, if any.
     pub fixed_point: Option<FixedPointSpec>,
+    /// Disturbance states to estimate, if any.
+    pub disturbances: Option<Disturbances>,
     /// Non-fatal findings, in file order.
     pub warnings: Vec<ModelWarning>,
 }
@@ -135,9 +159,34 @@ impl Model {
             read_sample_period(&root.require("sample_period", "the sample period in seconds")?)?;
         let plant =
             plant::read(&root.require_table("plant", plant::KEYS, "the [plant] section")?)?;
+        let observer_table =
+            root.require_table("observer", observer::KEYS, "the [observer] section")?;
+        let disturbances = root
+            .table("disturbances", disturbances::KEYS)?
+            .map(|table| {
+                disturbances::read(&table, &plant, observer_table.has("kalman"), &mut warnings)
+            })
+            .transpose()?;
+        let extra = disturbances.as_ref().map_or(0, Disturbances::state_count);
+        let states = if extra == 0 {
+            Dim {
+                count: plant.n(),
+                per: "state",
+                symbol: "n",
+                from: "plant.a",
+            }
+        } else {
+            Dim {
+                count: plant.n() + extra,
+                per: "estimated state",
+                symbol: "n + n_d",
+                from: "plant.a and [disturbances]",
+            }
+        };
         let observer = observer::read(
-            &root.require_table("observer", observer::KEYS, "the [observer] section")?,
+            &observer_table,
             &plant,
+            states,
             sample_period,
             &mut warnings,
         )?;
@@ -152,6 +201,7 @@ impl Model {
             plant,
             observer,
             fixed_point,
+            disturbances,
             warnings,
         })
     }
@@ -172,6 +222,20 @@ impl Model {
             )
         })?;
         Model::from_toml_str(&text, &origin)
+    }
+
+    /// Names of every estimated state: the plant's `state_names` (or `x0`,
+    /// `x1`, … when it has none), then the disturbance states.
+    pub fn state_names(&self) -> Vec<String> {
+        let mut names = self
+            .plant
+            .state_names
+            .clone()
+            .unwrap_or_else(|| (0..self.plant.n()).map(|i| format!("x{i}")).collect());
+        if let Some(d) = &self.disturbances {
+            names.extend(d.state_names());
+        }
+        names
     }
 
     /// [`Model::name`] as a Rust identifier: '-' mapped to '_'.

@@ -100,17 +100,20 @@ pub struct ObserverSpec {
     pub gate: Option<Gate>,
 }
 
-/// Reads and checks `[observer]` for `plant` sampled every `sample_period` seconds.
+/// Reads and checks `[observer]` for `plant` sampled every `sample_period`
+/// seconds; `states` counts the estimated states (the plant's and any
+/// disturbance states), which pole lists and a given gain must cover.
 pub(crate) fn read(
     table: &Table<'_, '_>,
     plant: &Plant,
+    states: Dim<'_>,
     sample_period: f64,
     warnings: &mut Vec<ModelWarning>,
 ) -> Result<ObserverSpec, ModelError> {
     let form = table
         .require("form", "\"predictor\" or \"current\"")?
         .choice(&[("predictor", Form::Predictor), ("current", Form::Current)])?;
-    let gain_source = read_gain_source(table, plant, sample_period, warnings)?;
+    let gain_source = read_gain_source(table, plant, states, sample_period, warnings)?;
     let gate = read_gate(table)?;
     Ok(ObserverSpec {
         form,
@@ -122,6 +125,7 @@ pub(crate) fn read(
 fn read_gain_source(
     table: &Table<'_, '_>,
     plant: &Plant,
+    states: Dim<'_>,
     sample_period: f64,
     warnings: &mut Vec<ModelWarning>,
 ) -> Result<GainSource, ModelError> {
@@ -156,25 +160,31 @@ fn read_gain_source(
         ));
     }
 
-    let n = plant.n();
     Ok(match source {
         SourceKey::Poles => {
             let node = table.require(key, "s-plane poles")?;
-            GainSource::Poles(read_poles(&node, Plane::S, n, sample_period, warnings)?)
+            GainSource::Poles(read_poles(
+                &node,
+                Plane::S,
+                states,
+                sample_period,
+                warnings,
+            )?)
         }
         SourceKey::DiscretePoles => {
             let node = table.require(key, "z-plane poles")?;
-            GainSource::DiscretePoles(read_poles(&node, Plane::Z, n, sample_period, warnings)?)
+            GainSource::DiscretePoles(read_poles(
+                &node,
+                Plane::Z,
+                states,
+                sample_period,
+                warnings,
+            )?)
         }
         SourceKey::Gain => {
             let node = table.require(key, "the n x p continuous gain")?;
             let l = node.matrix_of(
-                Dim {
-                    count: n,
-                    per: "state",
-                    symbol: "n",
-                    from: "plant.a",
-                },
+                states,
                 Dim {
                     count: plant.p(),
                     per: "output",

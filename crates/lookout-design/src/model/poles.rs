@@ -6,7 +6,7 @@ use std::f64::consts::PI;
 use nalgebra::Complex;
 
 use super::error::{ModelError, ModelErrorKind, ModelWarning};
-use super::reader::Node;
+use super::reader::{Dim, Node};
 
 /// Where a pole list lives.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -79,13 +79,13 @@ fn check_stable(node: &Node<'_, '_>, entry: &Entry, plane: Plane) -> Result<(), 
     }
 }
 
-/// Reads a pole list for an `n`-state plant and expands it: each `{ re, im }`
+/// Reads a pole list for `states` estimated states and expands it: each `{ re, im }`
 /// entry becomes `re + |im| i` followed by `re − |im| i`; real entries keep
 /// their place. `sample_period` is used only for the aliasing warning.
 pub(crate) fn read_poles(
     node: &Node<'_, '_>,
     plane: Plane,
-    n: usize,
+    states: Dim<'_>,
     sample_period: f64,
     warnings: &mut Vec<ModelWarning>,
 ) -> Result<Vec<Complex<f64>>, ModelError> {
@@ -111,10 +111,12 @@ pub(crate) fn read_poles(
     }
 
     let count: usize = entries.iter().map(|e| if e.is_pair { 2 } else { 1 }).sum();
+    let n = states.count;
     if count != n {
         let mut message = format!(
-            "expected {n} poles (one per state, n = {n} from plant.a), found {count} \
-             (a {{ re, im }} entry counts as two: it stands for its conjugate pair)"
+            "expected {}, found {count} \
+             (a {{ re, im }} entry counts as two: it stands for its conjugate pair)",
+            states.describe("pole", "poles")
         );
         if let Some((i, j)) = conjugate_listed_twice(&entries) {
             message.push_str(&format!(

@@ -63,7 +63,9 @@ pub(crate) struct Dim<'s> {
 }
 
 impl Dim<'_> {
-    fn describe(&self, one: &str, many: &str) -> String {
+    /// `3 poles (one per state, n = 3 from plant.a)`: the count with `one`
+    /// or `many` as its unit, and where it comes from.
+    pub fn describe(&self, one: &str, many: &str) -> String {
         let unit = if self.count == 1 { one } else { many };
         format!(
             "{} {unit} (one per {}, {} = {} from {})",
