@@ -10,7 +10,7 @@ mod json;
 mod report;
 
 use clap::Parser;
-use lookout_design::{DesignError, design_file};
+use lookout_design::{Design, DesignError, design_file};
 use std::process::ExitCode;
 
 fn main() -> ExitCode {
@@ -38,17 +38,13 @@ fn main() -> ExitCode {
 fn run(args: cli::Args) -> Result<(), DesignError> {
     match args.command {
         cli::Command::Design { model, json } => {
-            let design = design_file(&model)?;
-            for w in &design.warnings {
-                eprintln!("lookout: warning: {w}");
-            }
+            let design = designed(&model)?;
             let text = if json {
                 json::design(&design)
             } else {
                 report::design(&design)
             };
-            print!("{text}");
-            Ok(())
+            write_stdout(text.as_bytes())
         }
         cli::Command::Emit {
             model,
@@ -59,33 +55,42 @@ fn run(args: cli::Args) -> Result<(), DesignError> {
             match output {
                 Some(path) => {
                     let design = lookout_design::emit_file(&model, &path, scalar)?;
-                    for w in &design.warnings {
-                        eprintln!("lookout: warning: {w}");
-                    }
+                    warn(&design);
                     eprintln!("lookout: wrote {}", path.display());
+                    Ok(())
                 }
                 None => {
-                    let design = design_file(&model)?;
-                    for w in &design.warnings {
-                        eprintln!("lookout: warning: {w}");
-                    }
-                    let mut bytes = Vec::new();
-                    lookout_design::write_tables(&design, scalar, &mut bytes).map_err(|e| {
-                        DesignError::Io {
-                            path: "standard output".into(),
-                            message: e.to_string(),
-                        }
-                    })?;
-                    use std::io::Write as _;
-                    std::io::stdout()
-                        .write_all(&bytes)
-                        .map_err(|e| DesignError::Io {
-                            path: "standard output".into(),
-                            message: e.to_string(),
-                        })?;
+                    let design = designed(&model)?;
+                    write_stdout(lookout_design::tables_source(&design, scalar)?.as_bytes())
                 }
             }
-            Ok(())
         }
+    }
+}
+
+/// The design of the model file, its warnings shown on stderr.
+fn designed(model: &std::path::Path) -> Result<Design, DesignError> {
+    let design = design_file(model)?;
+    warn(&design);
+    Ok(design)
+}
+
+fn warn(design: &Design) {
+    for w in &design.warnings {
+        eprintln!("lookout: warning: {w}");
+    }
+}
+
+/// Writes all of `bytes` to standard output. A reader that has gone away
+/// (a closed pipe, as with `| head`) is not worth a message.
+fn write_stdout(bytes: &[u8]) -> Result<(), DesignError> {
+    use std::io::Write as _;
+    let mut out = std::io::stdout().lock();
+    match out.write_all(bytes).and_then(|()| out.flush()) {
+        Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(DesignError::Io {
+            path: "standard output".into(),
+            message: e.to_string(),
+        }),
+        _ => Ok(()),
     }
 }

@@ -93,7 +93,7 @@ pub fn design(d: &Design) -> String {
         s,
         "states          {}",
         names(
-            plant.state_names.as_deref(),
+            Some(&d.state_names()),
             plant.state_units.as_deref(),
             d.n(),
             "x"

@@ -8,4 +8,4 @@ pub mod model;
 pub mod numerics;
 
 pub use design::{Design, DesignError, Warning, design_file, design_text};
-pub use emit::{Scalar, emit_file, write_tables};
+pub use emit::{Scalar, emit_file, tables_source, write_tables};

@@ -46,9 +46,8 @@ pub fn emit_file(
     scalar: Scalar,
 ) -> Result<Design, DesignError> {
     let design = design_file(model_path)?;
-    let mut text = Vec::new();
-    write_tables(&design, scalar, &mut text).map_err(|e| io_error(out_path, &e))?;
-    write_atomically(out_path, &text)?;
+    let text = tables_source(&design, scalar)?;
+    write_atomically(out_path, text.as_bytes())?;
     Ok(design)
 }
 
@@ -75,17 +74,22 @@ fn io_error(path: &Path, e: &io::Error) -> DesignError {
 ///
 /// Fails with `InvalidData` if an entry does not fit `scalar`.
 pub fn write_tables(design: &Design, scalar: Scalar, out: &mut impl io::Write) -> io::Result<()> {
-    let text = source(design, scalar).ok_or_else(|| {
-        io::Error::new(
-            io::ErrorKind::InvalidData,
-            format!(
-                "a table entry of {} does not fit {}",
-                design.model.name,
-                scalar.rust_type()
-            ),
-        )
-    })?;
+    let text = tables_source(design, scalar)
+        .map_err(|e| io::Error::new(io::ErrorKind::InvalidData, e.to_string()))?;
     out.write_all(text.as_bytes())
+}
+
+/// The Rust source of `design`'s tables in `scalar`; refused (an input
+/// error) when an entry does not fit `scalar`.
+pub fn tables_source(design: &Design, scalar: Scalar) -> Result<String, DesignError> {
+    source(design, scalar).ok_or_else(|| DesignError::Unsupported {
+        origin: design.origin.clone(),
+        key: "scalar",
+        message: format!(
+            "a table entry does not fit {}; emit with a wider scalar",
+            scalar.rust_type()
+        ),
+    })
 }
 
 fn source(d: &Design, scalar: Scalar) -> Option<String> {
