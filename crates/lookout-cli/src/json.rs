@@ -63,9 +63,46 @@ pub fn design(d: &Design) -> String {
         "hold_mismatch": hold,
         "output_noise_gain": d.output_noise_gain,
         "model_hash": d.model_hash,
+        "fixed_point": d.fixed_point.as_ref().map_or(Value::Null, fixed_point),
         "warnings": d.warnings.iter().map(ToString::to_string).collect::<Vec<_>>(),
     });
     format!("{value}\n")
+}
+
+fn fixed_point(fx: &lookout_design::fixed_point::FixedDesign) -> Value {
+    let tables: Vec<Value> = fx
+        .form_tables
+        .iter()
+        .chain(&fx.fused_tables)
+        .map(|t| {
+            json!({
+                "name": t.name,
+                "row_exponents": t.exponents,
+                "largest": t.largest,
+                "max_abs_error": t.max_abs_error,
+                "max_rel_error": t.max_rel_error,
+            })
+        })
+        .collect();
+    json!({
+        "format": lookout_design::fixed_point::format_name(fx.format).to_lowercase(),
+        "state_scale_exponents": fx.state_exponents,
+        "input_scale_exponents": fx.input_exponents,
+        "output_scale_exponents": fx.output_exponents,
+        "state_bounds": fx.state_bounds,
+        "innovation_bounds": fx.innovation_bounds,
+        "error_poles": poles(&fx.error_poles),
+        "spectral_radius": fx.spectral_radius,
+        "fused_spectral_radius": fx.fused_spectral_radius,
+        "max_table_error": fx.max_table_error,
+        "tables": tables,
+        "bound_proof": {
+            "terms": fx.proof.terms,
+            "tail": fx.proof.tail,
+            "contraction_power": fx.proof.power,
+            "contraction": fx.proof.contraction,
+        },
+    })
 }
 
 #[cfg(test)]

@@ -253,6 +253,9 @@ pub fn design(d: &Design) -> String {
         gains.join(", ")
     );
     let _ = writeln!(s);
+    if let Some(fx) = &d.fixed_point {
+        fixed_point(&mut s, d, fx);
+    }
     if d.warnings.is_empty() {
         let _ = writeln!(s, "warnings        none");
     } else {
@@ -262,4 +265,104 @@ pub fn design(d: &Design) -> String {
         }
     }
     s
+}
+
+fn fixed_point(s: &mut String, d: &Design, fx: &lookout_design::fixed_point::FixedDesign) {
+    use lookout_design::fixed_point::format_name;
+    let names = d.state_names();
+    let _ = writeln!(
+        s,
+        "fixed point     {} (value v at scale exponent e stored as round(v · 2^(F − e)))",
+        format_name(fx.format)
+    );
+    let p = &fx.proof;
+    let _ = writeln!(
+        s,
+        "  proven peaks for |u| ≤ input_range, |y| ≤ output_range, from an estimate inside its driven bound:"
+    );
+    let _ = writeln!(
+        s,
+        "  ℓ1 impulse response of x̂⁺ = F x̂ + G u + H y over {} terms, tail ≤ {:.2e} from ‖F^{}‖∞ = {:.4} < 1",
+        p.terms, p.tail, p.power, p.contraction
+    );
+    let _ = writeln!(
+        s,
+        "  {:<20}{:>14}{:>14}{:>6}",
+        "signal", "proven peak", "scale 2^e", "e"
+    );
+    for (i, (b, e)) in fx.state_bounds.iter().zip(&fx.state_exponents).enumerate() {
+        let name = names.get(i).cloned().unwrap_or_else(|| format!("x{i}"));
+        let _ = writeln!(
+            s,
+            "  {name:<20}{b:>14.6e}{:>14.6e}{e:>6}",
+            2f64.powi(i32::from(*e))
+        );
+    }
+    for (j, e) in fx.input_exponents.iter().enumerate() {
+        let name = d
+            .model
+            .plant
+            .input_names
+            .as_ref()
+            .and_then(|n| n.get(j))
+            .cloned()
+            .unwrap_or_else(|| format!("u{j}"));
+        let _ = writeln!(
+            s,
+            "  {name:<20}{:>14}{:>14.6e}{e:>6}",
+            "(declared)",
+            2f64.powi(i32::from(*e))
+        );
+    }
+    for (j, (b, e)) in fx
+        .innovation_bounds
+        .iter()
+        .zip(&fx.output_exponents)
+        .enumerate()
+    {
+        let name = d
+            .model
+            .plant
+            .output_names
+            .as_ref()
+            .and_then(|n| n.get(j))
+            .cloned()
+            .unwrap_or_else(|| format!("y{j}"));
+        let _ = writeln!(
+            s,
+            "  {:<20}{b:>14.6e}{:>14.6e}{e:>6}",
+            format!("{name} (r)"),
+            2f64.powi(i32::from(*e))
+        );
+    }
+    let _ = writeln!(
+        s,
+        "  {:<8}{:<22}{:>14}{:>14}{:>12}",
+        "table", "row exponents", "largest", "max error", "relative"
+    );
+    let mut seen = Vec::new();
+    for t in fx.form_tables.iter().chain(&fx.fused_tables) {
+        if seen.contains(&t.name) {
+            continue;
+        }
+        seen.push(t.name);
+        let exps: Vec<String> = t.exponents.iter().map(ToString::to_string).collect();
+        let _ = writeln!(
+            s,
+            "  {:<8}{:<22}{:>14.6e}{:>14.3e}{:>12.3e}",
+            t.name,
+            format!("[{}]", exps.join(", ")),
+            t.largest,
+            t.max_abs_error,
+            t.max_rel_error
+        );
+    }
+    let poles: Vec<String> = fx.error_poles.iter().map(|&z| complex(z)).collect();
+    let _ = writeln!(s, "  quantised error poles (z)  {}", poles.join(", "));
+    let _ = writeln!(
+        s,
+        "  spectral radius            {:.9} quantised, {:.9} exact (fused tables: {:.9})",
+        fx.spectral_radius, d.spectral_radius, fx.fused_spectral_radius
+    );
+    let _ = writeln!(s);
 }

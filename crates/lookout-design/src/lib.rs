@@ -4,6 +4,7 @@
 
 pub mod design;
 pub mod emit;
+pub mod fixed_point;
 pub mod model;
 pub mod numerics;
 

@@ -124,7 +124,7 @@ pub use current::CurrentObserver;
 pub use fixed::{
     ConvertError, Fixed, FixedCurrentObserver, FixedCurrentTables, FixedFusedObserver,
     FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Q15,
-    Q31, Scales, TableName, Wide,
+    Q31, Scales, TableName, Wide, dequantise_real, quantise_real, row_exponent,
 };
 pub use fused::FusedObserver;
 pub use gate::Gate;

@@ -84,6 +84,9 @@ pub struct Design {
     /// deviation of white noise on that output (above 1: the observer passes
     /// more measurement noise than the raw reading has).
     pub output_noise_gain: Vec<f64>,
+    /// The fixed-point tables and their proofs, when the model has a
+    /// `[fixed_point]` section.
+    pub fixed_point: Option<crate::fixed_point::FixedDesign>,
     /// Non-fatal findings.
     pub warnings: Vec<Warning>,
 }
@@ -257,9 +260,43 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         hold_mismatch: designed.hold_mismatch,
         gate,
         output_noise_gain,
+        fixed_point: None,
         warnings: Vec::new(),
         model,
     };
+    if let Some(spec) = &design.model.fixed_point {
+        let tables = crate::fixed_point::FloatTables {
+            form: design.model.observer.form,
+            ad: &design.ad,
+            bd: &design.bd,
+            cd: &design.cd,
+            dd: &design.dd,
+            gain: design.gain.as_ref(),
+            f: &design.f,
+            g: &design.g,
+            h: &design.h,
+            spectral_radius: design.spectral_radius,
+        };
+        let fixed =
+            crate::fixed_point::design(&tables, spec).map_err(|e| DesignError::Unsupported {
+                origin: origin.to_string(),
+                key: e.key,
+                message: e.message,
+            })?;
+        early_warnings.extend(
+            fixed
+                .warnings
+                .iter()
+                .map(|(k, m)| Warning::new(k.clone(), m.clone())),
+        );
+        if design.gate.is_some() {
+            early_warnings.push(Warning::new(
+                "observer.gate_probability",
+                "the fixed-point tables are emitted without the gate (not yet generated for Q tables)",
+            ));
+        }
+        design.fixed_point = Some(fixed);
+    }
     design.warnings = early_warnings;
     design
         .warnings

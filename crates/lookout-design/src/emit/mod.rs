@@ -6,6 +6,7 @@
 //! they read back exactly. [`emit_file`] is the build-script entry point: it
 //! writes the whole file or nothing.
 
+mod fixed;
 mod literal;
 
 pub use literal::Scalar;
@@ -191,6 +192,9 @@ fn source(d: &Design, scalar: Scalar) -> Option<String> {
         matrix(scalar, &d.cd)?,
         matrix(scalar, &d.dd)?,
     );
+    if let Some(fx) = &d.fixed_point {
+        s.push_str(&fixed::items(d, fx)?);
+    }
     s.push_str("}\n");
     Some(s)
 }
@@ -234,7 +238,11 @@ fn header(d: &Design, s: &mut String) {
         );
         let _ = writeln!(s, "//   {:.9} {:+.9}i   (s: {s_text})", z.re, z.im);
     }
-    let _ = writeln!(s, "// spectral radius: {:.9}\n", d.spectral_radius);
+    let _ = writeln!(s, "// spectral radius: {:.9}", d.spectral_radius);
+    if let Some(fx) = &d.fixed_point {
+        fixed::header(fx, s);
+    }
+    s.push('\n');
 }
 
 /// Each name with its doc line, `` `name`. ``.

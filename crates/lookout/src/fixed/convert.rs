@@ -213,7 +213,6 @@ pub(crate) fn row_exponents<Q: Fixed, const R: usize>(
     blocks: &[&dyn RowStats],
     output: &[i8; R],
 ) -> Result<[i8; R], ConvertError> {
-    let f = frac::<Q>();
     let mut exp = [0i8; R];
     for (i, (e, &s_out)) in exp.iter_mut().zip(output.iter()).enumerate() {
         let (mut sum, mut max) = (0.0, 0.0f64);
@@ -222,22 +221,58 @@ pub(crate) fn row_exponents<Q: Fixed, const R: usize>(
             sum += s;
             max = max.max(m);
         }
-        if sum == 0.0 {
-            continue;
-        }
-        let fits =
-            |k: i32| sum <= pow2(k) && quantise_scaled::<Q>(max, f.saturating_sub(k)).is_some();
         let first = blocks.first().map_or(TableName::A, |b| b.name());
-        let k = (f.saturating_neg()..=f)
-            .find(|&k| fits(k))
-            .ok_or(ConvertError::RowTooLarge {
-                table: first,
-                row: i,
-                sum,
-            })?;
-        *e = i8::try_from(k).unwrap_or(0);
+        *e = row_exponent::<Q>(sum, max).ok_or(ConvertError::RowTooLarge {
+            table: first,
+            row: i,
+            sum,
+        })?;
     }
     Ok(exp)
+}
+
+/// Host side: the row exponent of the row-sum rule of [`Fixed`] for one
+/// stacked row whose normalised entries τ have Σ|τ| = `abs_sum` and
+/// max |τ| = `abs_max`: the smallest e ∈ [−F, F] with Σ|τ| ≤ 2^e whose
+/// largest entry still fits the word; 0 for an all-zero row, `None` when no
+/// exponent fits (or the sums are not finite).
+///
+/// This is the rule every `from_float` applies; tools that work with
+/// run-time sizes call it to choose the same exponents.
+///
+/// ```
+/// // The θ row of the worked example on `Fixed`: Σ|τ| = 1.516 → e = 1.
+/// assert_eq!(lookout::row_exponent::<lookout::Q31>(1.516, 1.0), Some(1));
+/// assert_eq!(lookout::row_exponent::<lookout::Q15>(0.0, 0.0), Some(0));
+/// ```
+pub fn row_exponent<Q: Fixed>(abs_sum: f64, abs_max: f64) -> Option<i8> {
+    if abs_sum == 0.0 {
+        return Some(0);
+    }
+    if !(abs_sum.is_finite() && abs_max.is_finite()) {
+        return None;
+    }
+    let f = frac::<Q>();
+    let fits =
+        |k: i32| abs_sum <= pow2(k) && quantise_scaled::<Q>(abs_max, f.saturating_sub(k)).is_some();
+    (f.saturating_neg()..=f)
+        .find(|&k| fits(k))
+        .and_then(|k| i8::try_from(k).ok())
+}
+
+/// Host side: `value` at scale exponent `exponent` as a Q value,
+/// round(value · 2^(F − exponent)) half up, as the `from_float` builders
+/// round; `None` when not finite or outside the word. Generic twin of
+/// [`Q31::from_real`](crate::Q31::from_real).
+pub fn quantise_real<Q: Fixed>(value: f64, exponent: i8) -> Option<Q> {
+    quantise(value, exponent)
+}
+
+/// Host side: the value `q` stands for at scale exponent `exponent`,
+/// q · 2^(exponent − F), exactly. Generic twin of
+/// [`Q31::to_real`](crate::Q31::to_real).
+pub fn dequantise_real<Q: Fixed>(q: Q, exponent: i8) -> f64 {
+    dequantise(q, exponent)
 }
 
 /// The block's entries as Q values with the row exponents `exp`:

@@ -30,7 +30,7 @@ mod predictor;
 mod quantise;
 mod tables;
 
-pub use convert::{ConvertError, TableName};
+pub use convert::{ConvertError, TableName, dequantise_real, quantise_real, row_exponent};
 pub use current::FixedCurrentObserver;
 pub use format::{Fixed, Q15, Q31, Wide};
 pub use fused::FixedFusedObserver;

@@ -1,0 +1,129 @@
+//! The Q15/Q31 tables of a design with a `[fixed_point]` section, as Rust
+//! source for the runtime's fixed-point types.
+
+use crate::design::Design;
+use crate::fixed_point::{FixedDesign, QuantisedTable, format_name};
+use crate::model::Form;
+use std::fmt::Write as _;
+
+fn ints(values: &[i8]) -> String {
+    let items: Vec<String> = values.iter().map(ToString::to_string).collect();
+    format!("[{}]", items.join(", "))
+}
+
+fn qmatrix(ty: &str, t: &QuantisedTable) -> String {
+    let rows: Vec<String> =
+        t.q.row_iter()
+            .map(|r| {
+                let items: Vec<String> = r.iter().map(|v| format!("lookout::{ty}({v})")).collect();
+                format!("[{}]", items.join(", "))
+            })
+            .collect();
+    format!("lookout::Matrix::from_rows([{}])", rows.join(", "))
+}
+
+fn table<'a>(tables: &'a [QuantisedTable], name: &str) -> Option<&'a QuantisedTable> {
+    tables.iter().find(|t| t.name == name)
+}
+
+/// Header lines describing the scales and the quantised error dynamics.
+pub(super) fn header(fx: &FixedDesign, s: &mut String) {
+    let _ = writeln!(
+        s,
+        "// fixed point: {} (a signal v with scale exponent e is stored as round(v * 2^(F - e)))",
+        format_name(fx.format)
+    );
+    let _ = writeln!(
+        s,
+        "//   state scale exponents {} (proven peaks {})",
+        ints(&fx.state_exponents),
+        peaks(&fx.state_bounds)
+    );
+    let _ = writeln!(
+        s,
+        "//   input scale exponents {}",
+        ints(&fx.input_exponents)
+    );
+    let _ = writeln!(
+        s,
+        "//   output scale exponents {} (innovation peaks {})",
+        ints(&fx.output_exponents),
+        peaks(&fx.innovation_bounds)
+    );
+    let _ = writeln!(
+        s,
+        "//   quantised spectral radius {:.9} (fused {:.9})",
+        fx.spectral_radius, fx.fused_spectral_radius
+    );
+}
+
+fn peaks(values: &[f64]) -> String {
+    let items: Vec<String> = values.iter().map(|v| format!("{v:.6e}")).collect();
+    format!("[{}]", items.join(", "))
+}
+
+/// The Q tables' items inside the model's module.
+pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
+    let ty = format_name(fx.format);
+    let suffix = ty.to_uppercase();
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "    /// Signal scale exponents of the {ty} tables: |v| < 2^e for each state, input and output.\n    pub const SCALES: lookout::Scales<N, M, P> = lookout::Scales {{ state: {}, input: {}, output: {} }};",
+        ints(&fx.state_exponents),
+        ints(&fx.input_exponents),
+        ints(&fx.output_exponents)
+    );
+    let output = |tables: &[QuantisedTable]| -> Option<String> {
+        let (c, dd) = (table(tables, "c")?, table(tables, "d")?);
+        Some(format!(
+            "lookout::FixedOutputMap {{ c: {}, d: {}, exp: {} }}",
+            qmatrix(ty, c),
+            qmatrix(ty, dd),
+            ints(&c.exponents)
+        ))
+    };
+    if !fx.form_tables.is_empty() {
+        let t = &fx.form_tables;
+        let (a, b) = (table(t, "a")?, table(t, "b")?);
+        match d.model.observer.form {
+            Form::Predictor => {
+                let l = table(t, "l")?;
+                let _ = writeln!(
+                    s,
+                    "    /// Predictor tables in {ty} (integer-only step).\n    pub static PREDICTOR_{suffix}: lookout::FixedPredictorTables<lookout::{ty}, N, M, P> = lookout::FixedPredictorTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        l: {},\n        exp: {},\n        output: {},\n        gate: None,\n    }};",
+                    qmatrix(ty, a),
+                    qmatrix(ty, b),
+                    qmatrix(ty, l),
+                    ints(&a.exponents),
+                    output(t)?
+                );
+            }
+            Form::Current => {
+                let k = table(t, "k")?;
+                let _ = writeln!(
+                    s,
+                    "    /// Current-form tables in {ty} (integer-only step).\n    pub static CURRENT_{suffix}: lookout::FixedCurrentTables<lookout::{ty}, N, M, P> = lookout::FixedCurrentTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        exp: {},\n        k: {},\n        k_exp: {},\n        output: {},\n        gate: None,\n    }};",
+                    qmatrix(ty, a),
+                    qmatrix(ty, b),
+                    ints(&a.exponents),
+                    qmatrix(ty, k),
+                    ints(&k.exponents),
+                    output(t)?
+                );
+            }
+        }
+    }
+    let t = &fx.fused_tables;
+    let f = table(t, "f")?;
+    let _ = writeln!(
+        s,
+        "    /// Fused tables in {ty} (integer-only step).\n    pub static FUSED_{suffix}: lookout::FixedFusedTables<lookout::{ty}, N, M, P> = lookout::FixedFusedTables {{\n        scales: SCALES,\n        f: {},\n        g: {},\n        h: {},\n        exp: {},\n        output: {},\n        gate: None,\n    }};",
+        qmatrix(ty, f),
+        qmatrix(ty, table(t, "g")?),
+        qmatrix(ty, table(t, "h")?),
+        ints(&f.exponents),
+        output(t)?
+    );
+    Some(s)
+}

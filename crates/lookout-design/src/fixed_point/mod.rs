@@ -1,0 +1,402 @@
+//! Fixed-point tables from the model's `[fixed_point]` section: signal
+//! scales with a proven no-overflow bound, Q15/Q31 tables by the runtime's
+//! rules, and the quantised-stability check.
+//!
+//! # Scales
+//!
+//! The estimate of the fused recursion x̂⁺ = F x̂ + G u + H y (every observer
+//! form follows it while all channels are used) is bounded, for |u| ≤
+//! `input_range`, |y| ≤ `output_range` and an initial estimate inside its
+//! own driven bound (zero, say), by the ℓ1 norm of the impulse response
+//! applied to the ranges plus the initial-state term ([`bounds::peak`]).
+//! The innovation r = y − C x̂ − D u (stored at the output's scale, as is the
+//! stand-in reading C x̂ + D u) is then bounded by |y| + |C| x̂max + |D| u,
+//! and for the current form the filtered estimate x̂[k|k] = x̂ + K r by
+//! x̂max + |K| rmax. Each scale exponent s is the smallest with
+//! bound · 2^margin_bits < 2^s (declared ranges get no margin). The tables'
+//! row exponents follow the runtime's row-sum rule, which makes the wide
+//! accumulator safe whenever every signal is inside its scale, so no
+//! intermediate sum can overflow either.
+//!
+//! Not covered: with channels missing the estimate follows the open-loop
+//! model, which need not be bounded (an integrator is not); the runtime then
+//! saturates and counts, it never wraps.
+//!
+//! # Quantised stability
+//!
+//! The emitted integers are dequantised exactly, the error matrix is rebuilt
+//! from them (A − L C, A − A K C, or F) and its eigenvalues recomputed. The
+//! design is refused when the quantised spectral radius is ≥ 1 or exceeds
+//! the exact one by more than `stability_margin`.
+
+pub mod bounds;
+mod quantise;
+
+pub use bounds::{BoundError, PeakBound};
+pub use quantise::QuantisedTable;
+
+use crate::model::{FixedFormat, FixedPointSpec, Form};
+use crate::numerics;
+use nalgebra::{Complex, DMatrix, DVector};
+use quantise::{Block, RowTooLarge, stacked};
+
+/// The fixed-point part of a design.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FixedDesign {
+    /// Q15 or Q31.
+    pub format: FixedFormat,
+    /// Scale exponent of each state (|x̂_i| < 2^s_i).
+    pub state_exponents: Vec<i8>,
+    /// Scale exponent of each input.
+    pub input_exponents: Vec<i8>,
+    /// Scale exponent of each output (and its innovation).
+    pub output_exponents: Vec<i8>,
+    /// Proven peak of each estimated state (the largest of the predicted
+    /// and, for the current form, the filtered estimate).
+    pub state_bounds: Vec<f64>,
+    /// Proven peak of each innovation (and stand-in reading).
+    pub innovation_bounds: Vec<f64>,
+    /// How the state bound was proven (the fused recursion).
+    pub proof: PeakBound,
+    /// The form's tables in Q form: a, b, l (predictor) or a, b, k
+    /// (current), then c, d; empty for a held observer.
+    pub form_tables: Vec<QuantisedTable>,
+    /// The fused tables in Q form: f, g, h, then c, d.
+    pub fused_tables: Vec<QuantisedTable>,
+    /// Eigenvalues of the quantised error matrix of the form's tables (of
+    /// the fused tables for a held observer).
+    pub error_poles: Vec<Complex<f64>>,
+    /// Their largest magnitude.
+    pub spectral_radius: f64,
+    /// Spectral radius of the quantised fused F.
+    pub fused_spectral_radius: f64,
+    /// Largest |exact − dequantised| entry over every table.
+    pub max_table_error: f64,
+    /// Non-fatal findings, each tied to a model key.
+    pub warnings: Vec<(String, String)>,
+}
+
+/// Why fixed-point tables were refused.
+#[derive(Debug, Clone, PartialEq)]
+pub struct FixedError {
+    /// The model key concerned.
+    pub key: &'static str,
+    /// What is wrong and what to do.
+    pub message: String,
+}
+
+/// What the fixed-point design needs from the float design.
+pub struct FloatTables<'a> {
+    /// Observer form.
+    pub form: Form,
+    /// Sampled plant.
+    pub ad: &'a DMatrix<f64>,
+    /// Sampled input matrix.
+    pub bd: &'a DMatrix<f64>,
+    /// Output matrix.
+    pub cd: &'a DMatrix<f64>,
+    /// Feed-through.
+    pub dd: &'a DMatrix<f64>,
+    /// L or K; `None` for a held observer.
+    pub gain: Option<&'a DMatrix<f64>>,
+    /// Fused F.
+    pub f: &'a DMatrix<f64>,
+    /// Fused G.
+    pub g: &'a DMatrix<f64>,
+    /// Fused H.
+    pub h: &'a DMatrix<f64>,
+    /// Spectral radius of the exact F.
+    pub spectral_radius: f64,
+}
+
+/// The smallest s with `value` < 2^s (`value` ≥ 0, finite), clamped to i8.
+fn exponent_above(value: f64) -> i8 {
+    if value <= 0.0 {
+        return -31;
+    }
+    let s = value.log2().floor() as i32 + 1;
+    // log2 may round at exact powers of two; step to the right side.
+    let s = if 2f64.powi(s - 1) > value { s - 1 } else { s };
+    i8::try_from(s.clamp(-31, 100)).unwrap_or(100)
+}
+
+fn abs_times(m: &DMatrix<f64>, v: &[f64]) -> Vec<f64> {
+    m.row_iter()
+        .map(|r| r.iter().zip(v).map(|(a, b)| a.abs() * b).sum())
+        .collect()
+}
+
+/// Designs the fixed-point tables of `t` for `spec`.
+pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign, FixedError> {
+    let n = t.f.nrows();
+    let margin = 2f64.powi(i32::try_from(spec.margin_bits).unwrap_or(0));
+    let mut warnings = Vec::new();
+
+    // The fused recursion's peak: first driven from zero, then from an
+    // initial estimate anywhere inside that driven bound.
+    let mut e = DMatrix::zeros(n, t.g.ncols() + t.h.ncols());
+    e.columns_mut(0, t.g.ncols()).copy_from(t.g);
+    e.columns_mut(t.g.ncols(), t.h.ncols()).copy_from(t.h);
+    let w = DVector::from_iterator(
+        e.ncols(),
+        spec.input_range.iter().chain(&spec.output_range).copied(),
+    );
+    let unprovable = |err: BoundError| FixedError {
+        key: "fixed_point",
+        message: match err {
+            BoundError::NoContraction { best } => format!(
+                "cannot prove a bound on the estimate: no power of F up to 4096 contracts in the ∞-norm (best {best:.4})"
+            ),
+            BoundError::NotFinite => {
+                "cannot prove a bound on the estimate: the impulse-response sum overflows".into()
+            }
+        },
+    };
+    let driven = bounds::peak(t.f, &e, &w, &DVector::zeros(n)).map_err(unprovable)?;
+    let proof =
+        bounds::peak(t.f, &e, &w, &DVector::from_vec(driven.driven.clone())).map_err(unprovable)?;
+    let x_peak = proof.peak.clone();
+
+    let mut u_w = spec.input_range.clone();
+    u_w.truncate(t.dd.ncols());
+    let innovation: Vec<f64> = abs_times(t.cd, &x_peak)
+        .iter()
+        .zip(abs_times(t.dd, &u_w))
+        .zip(&spec.output_range)
+        .map(|((cx, du), y)| y + cx + du)
+        .collect();
+    let state_bounds: Vec<f64> = match (t.form, t.gain) {
+        (Form::Current, Some(k)) => x_peak
+            .iter()
+            .zip(abs_times(k, &innovation))
+            .map(|(x, kr)| x + kr)
+            .collect(),
+        _ => x_peak,
+    };
+
+    let state_exponents: Vec<i8> = state_bounds
+        .iter()
+        .enumerate()
+        .map(|(i, &b)| {
+            match spec.state_range.as_ref().and_then(|r| r.get(i)) {
+                Some(&range) => {
+                    if range < b {
+                        warnings.push((
+                            format!("fixed_point.state_range[{i}]"),
+                            format!("{range} is below the proven peak {b:.6e} of this state: its estimate can saturate"),
+                        ));
+                    }
+                    exponent_above(range * margin)
+                }
+                None => exponent_above(b * margin),
+            }
+        })
+        .collect();
+    let input_exponents: Vec<i8> = spec
+        .input_range
+        .iter()
+        .map(|&u| exponent_above(u))
+        .collect();
+    let output_exponents: Vec<i8> = spec
+        .output_range
+        .iter()
+        .zip(&innovation)
+        .map(|(&y, &r)| exponent_above(y).max(exponent_above(r * margin)))
+        .collect();
+
+    let fail = |e: RowTooLarge| FixedError {
+        key: "fixed_point",
+        message: format!(
+            "table {} row {} cannot be stored in {}: normalised row sum {:.4e}",
+            e.table,
+            e.row,
+            format_name(spec.format),
+            e.sum
+        ),
+    };
+    let (sx, su, sy) = (
+        &state_exponents[..],
+        &input_exponents[..],
+        &output_exponents[..],
+    );
+    let quantise = |blocks: &[Block<'_>], out: &[i8]| match spec.format {
+        FixedFormat::Q15 => stacked::<lookout::Q15>(blocks, out),
+        FixedFormat::Q31 => stacked::<lookout::Q31>(blocks, out),
+    };
+    let output_map = quantise(
+        &[
+            Block {
+                name: "c",
+                m: t.cd,
+                input: sx,
+            },
+            Block {
+                name: "d",
+                m: t.dd,
+                input: su,
+            },
+        ],
+        sy,
+    )
+    .map_err(fail)?;
+    let mut fused_tables = quantise(
+        &[
+            Block {
+                name: "f",
+                m: t.f,
+                input: sx,
+            },
+            Block {
+                name: "g",
+                m: t.g,
+                input: su,
+            },
+            Block {
+                name: "h",
+                m: t.h,
+                input: sy,
+            },
+        ],
+        sx,
+    )
+    .map_err(fail)?;
+    fused_tables.extend(output_map.iter().cloned());
+    let form_tables = match (t.form, t.gain) {
+        (_, None) => Vec::new(),
+        (Form::Predictor, Some(l)) => quantise(
+            &[
+                Block {
+                    name: "a",
+                    m: t.ad,
+                    input: sx,
+                },
+                Block {
+                    name: "b",
+                    m: t.bd,
+                    input: su,
+                },
+                Block {
+                    name: "l",
+                    m: l,
+                    input: sy,
+                },
+            ],
+            sx,
+        )
+        .map_err(fail)?,
+        (Form::Current, Some(k)) => {
+            let mut tables = quantise(
+                &[
+                    Block {
+                        name: "a",
+                        m: t.ad,
+                        input: sx,
+                    },
+                    Block {
+                        name: "b",
+                        m: t.bd,
+                        input: su,
+                    },
+                ],
+                sx,
+            )
+            .map_err(fail)?;
+            tables.extend(
+                quantise(
+                    &[Block {
+                        name: "k",
+                        m: k,
+                        input: sy,
+                    }],
+                    sx,
+                )
+                .map_err(fail)?,
+            );
+            tables
+        }
+    };
+    let mut form_tables = form_tables;
+    if !form_tables.is_empty() {
+        form_tables.extend(output_map.iter().cloned());
+    }
+
+    // Quantised error dynamics.
+    let get = |tables: &[QuantisedTable], name: &str| {
+        tables
+            .iter()
+            .find(|q| q.name == name)
+            .map(|q| q.dequantised.clone())
+    };
+    let fq = get(&fused_tables, "f").unwrap_or_else(|| t.f.clone());
+    let form_error = match (get(&form_tables, "a"), get(&form_tables, "c")) {
+        (Some(a), Some(c)) => match (t.form, get(&form_tables, "l"), get(&form_tables, "k")) {
+            (Form::Predictor, Some(l), _) => Some(&a - &l * &c),
+            (Form::Current, _, Some(k)) => Some(&a - &a * &k * &c),
+            _ => None,
+        },
+        _ => None,
+    };
+    let eig_fail = |e: numerics::NumericsError| FixedError {
+        key: "fixed_point",
+        message: format!("eigenvalues of the quantised error matrix: {e}"),
+    };
+    let fused_poles = numerics::eigenvalues("quantised F", &fq).map_err(eig_fail)?;
+    let fused_spectral_radius = fused_poles.iter().map(|z| z.norm()).fold(0.0, f64::max);
+    let error_poles = match &form_error {
+        Some(m) => numerics::eigenvalues("quantised error matrix", m).map_err(eig_fail)?,
+        None => fused_poles.clone(),
+    };
+    let spectral_radius = error_poles.iter().map(|z| z.norm()).fold(0.0, f64::max);
+    for (what, rho) in [
+        ("the form's", spectral_radius),
+        ("the fused", fused_spectral_radius),
+    ] {
+        let lost = rho - t.spectral_radius;
+        if rho >= 1.0 || lost > spec.stability_margin {
+            let hint = if spec.format == FixedFormat::Q15 {
+                "; try format = \"q31\""
+            } else {
+                ""
+            };
+            return Err(FixedError {
+                key: "fixed_point.format",
+                message: format!(
+                    "{} rounding makes {what} error dynamics {}: quantised spectral radius {rho:.9} against {:.9} exact (growth {lost:.3e}, allowed stability_margin = {}){hint}",
+                    format_name(spec.format),
+                    if rho >= 1.0 { "unstable" } else { "too slow" },
+                    t.spectral_radius,
+                    spec.stability_margin
+                ),
+            });
+        }
+    }
+    let max_table_error = form_tables
+        .iter()
+        .chain(&fused_tables)
+        .map(|q| q.max_abs_error)
+        .fold(0.0, f64::max);
+    Ok(FixedDesign {
+        format: spec.format,
+        state_exponents,
+        input_exponents,
+        output_exponents,
+        state_bounds,
+        innovation_bounds: innovation,
+        proof,
+        form_tables,
+        fused_tables,
+        error_poles,
+        spectral_radius,
+        fused_spectral_radius,
+        max_table_error,
+        warnings,
+    })
+}
+
+/// "Q15" or "Q31".
+pub fn format_name(format: FixedFormat) -> &'static str {
+    match format {
+        FixedFormat::Q15 => "Q15",
+        FixedFormat::Q31 => "Q31",
+    }
+}
