@@ -84,6 +84,28 @@ fn design_json_has_the_documented_keys_and_the_requested_poles() {
         assert!((im.abs() - mag * (40.0 * t).sin()).abs() < 1e-12);
     }
     assert!((v["spectral_radius"].as_f64().unwrap() - mag).abs() < 1e-12);
+    // The demo has a [fixed_point] section.
+    let fx = &v["fixed_point"];
+    for key in [
+        "format",
+        "state_scale_exponents",
+        "state_bounds",
+        "error_poles",
+        "spectral_radius",
+        "max_table_error",
+    ] {
+        assert!(fx.get(key).is_some(), "fixed_point lacks {key}");
+    }
+    assert_eq!(fx["format"], "q31");
+    for (bound, e) in fx["state_bounds"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .zip(fx["state_scale_exponents"].as_array().unwrap())
+    {
+        assert!(bound.as_f64().unwrap() < 2f64.powi(e.as_i64().unwrap() as i32));
+    }
+    assert_eq!(fx["error_poles"].as_array().unwrap().len(), 2);
     // f = ad − gain · cd, element by element.
     for i in 0..2 {
         for j in 0..2 {

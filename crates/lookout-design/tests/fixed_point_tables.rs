@@ -168,3 +168,51 @@ output_range = [10.0]
         "{err}"
     );
 }
+
+/// The design's run-time-sized quantisation of a current-form Kalman design
+/// gives exactly the integers of the runtime's own builder (`from_float`)
+/// at compile-time sizes.
+#[test]
+fn current_form_q_tables_equal_the_runtime_builder() {
+    let text = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/../../examples/conveyor_kalman.toml"
+    ))
+    .unwrap();
+    let text = text.replace("gate_probability = 0.999\n", "")
+        + "\n[fixed_point]\nformat = \"q31\"\ninput_range = [5.0]\noutput_range = [64.0]\n";
+    let d = lookout_design::design_text(&text, "conveyor_kalman.toml").unwrap();
+    let fx = d.fixed_point.as_ref().unwrap();
+    let float = lookout::CurrentTables::<f64, 2, 1, 1> {
+        plant: lookout::Plant {
+            a: to_matrix(&d.ad),
+            b: to_matrix(&d.bd),
+            c: to_matrix(&d.cd),
+            d: to_matrix(&d.dd),
+        },
+        k: to_matrix(d.gain.as_ref().unwrap()),
+        gate: None,
+    };
+    let scales = Scales::<2, 1, 1> {
+        state: arr(&fx.state_exponents),
+        input: arr(&fx.input_exponents),
+        output: arr(&fx.output_exponents),
+    };
+    let built = lookout::FixedCurrentTables::<Q31, 2, 1, 1>::from_float(&float, scales).unwrap();
+    let ints = |name: &str| {
+        fx.form_tables
+            .iter()
+            .find(|t| t.name == name)
+            .unwrap()
+            .q
+            .clone()
+    };
+    let of = |m: &[[Q31; 2]; 2]| DMatrix::from_fn(2, 2, |i, j| i64::from(m[j][i].0));
+    assert_eq!(of(built.a.as_cols()), ints("a"));
+    assert_eq!(i64::from(built.k.get(0, 0).unwrap().0), ints("k")[(0, 0)]);
+    assert_eq!(i64::from(built.k.get(1, 0).unwrap().0), ints("k")[(1, 0)]);
+    assert_eq!(i64::from(built.b.get(1, 0).unwrap().0), ints("b")[(1, 0)]);
+    let k_table = fx.form_tables.iter().find(|t| t.name == "k").unwrap();
+    assert_eq!(built.k_exp.to_vec(), k_table.exponents);
+    assert!(fx.spectral_radius < 1.0);
+}
