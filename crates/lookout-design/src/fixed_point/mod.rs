@@ -223,39 +223,13 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
         FixedFormat::Q15 => stacked::<lookout::Q15>(blocks, out),
         FixedFormat::Q31 => stacked::<lookout::Q31>(blocks, out),
     };
-    let output_map = quantise(
-        &[
-            Block {
-                name: "c",
-                m: t.cd,
-                input: sx,
-            },
-            Block {
-                name: "d",
-                m: t.dd,
-                input: su,
-            },
-        ],
-        sy,
-    )
-    .map_err(fail)?;
+    let output_map =
+        quantise(&[Block::new("c", t.cd, sx), Block::new("d", t.dd, su)], sy).map_err(fail)?;
     let mut fused_tables = quantise(
         &[
-            Block {
-                name: "f",
-                m: t.f,
-                input: sx,
-            },
-            Block {
-                name: "g",
-                m: t.g,
-                input: su,
-            },
-            Block {
-                name: "h",
-                m: t.h,
-                input: sy,
-            },
+            Block::new("f", t.f, sx),
+            Block::new("g", t.g, su),
+            Block::new("h", t.h, sy),
         ],
         sx,
     )
@@ -265,53 +239,17 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
         (_, None) => Vec::new(),
         (Form::Predictor, Some(l)) => quantise(
             &[
-                Block {
-                    name: "a",
-                    m: t.ad,
-                    input: sx,
-                },
-                Block {
-                    name: "b",
-                    m: t.bd,
-                    input: su,
-                },
-                Block {
-                    name: "l",
-                    m: l,
-                    input: sy,
-                },
+                Block::new("a", t.ad, sx),
+                Block::new("b", t.bd, su),
+                Block::new("l", l, sy),
             ],
             sx,
         )
         .map_err(fail)?,
         (Form::Current, Some(k)) => {
-            let mut tables = quantise(
-                &[
-                    Block {
-                        name: "a",
-                        m: t.ad,
-                        input: sx,
-                    },
-                    Block {
-                        name: "b",
-                        m: t.bd,
-                        input: su,
-                    },
-                ],
-                sx,
-            )
-            .map_err(fail)?;
-            tables.extend(
-                quantise(
-                    &[Block {
-                        name: "k",
-                        m: k,
-                        input: sy,
-                    }],
-                    sx,
-                )
-                .map_err(fail)?,
-            );
+            let mut tables = quantise(&[Block::new("a", t.ad, sx), Block::new("b", t.bd, su)], sx)
+                .map_err(fail)?;
+            tables.extend(quantise(&[Block::new("k", k, sy)], sx).map_err(fail)?);
             tables
         }
     };

@@ -33,6 +33,12 @@ pub(crate) struct Block<'a> {
     pub input: &'a [i8],
 }
 
+impl<'a> Block<'a> {
+    pub fn new(name: &'static str, m: &'a DMatrix<f64>, input: &'a [i8]) -> Self {
+        Self { name, m, input }
+    }
+}
+
 /// Why a row could not be stored.
 #[derive(Debug, Clone, PartialEq)]
 pub(crate) struct RowTooLarge {
