@@ -1,0 +1,85 @@
+//! Writes the firmware's observer tables to OUT_DIR and wires the linker
+//! script: the build-script pattern the README teaches.
+//!
+//! * f32 tables (what the firmware runs) and f64 tables (the "true" plant the
+//!   firmware simulates) of each demo model, by `lookout_design::emit_file`;
+//! * Q31 and Q15 tables of the gate-free predictor models, converted from
+//!   the designed f64 tables with the runtime's `from_float` at the scales
+//!   below (see `build/fixed_tables.rs`; a stand-in until `lookout emit`
+//!   writes fixed-point tables itself);
+//! * `memory.x` copied to OUT_DIR, which goes on the link search path, and
+//!   `-Tlink.x` (cortex-m-rt's linker script, which includes `memory.x`).
+//!
+//! Every model file is a `rerun-if-changed` input: editing one regenerates
+//! the tables on the next `cargo build`, with no manual step.
+
+#[path = "build/fixed_tables.rs"]
+mod fixed_tables;
+
+use lookout::Scales;
+use lookout_design::{Scalar, design_file, emit_file};
+use std::error::Error;
+use std::path::{Path, PathBuf};
+
+/// The demo models: path (relative to this crate) and the stem of the
+/// generated files.
+const MODELS: [(&str, &str); 3] = [
+    ("../conveyor.toml", "conveyor"),
+    ("../conveyor_kalman.toml", "conveyor_kalman"),
+    ("models/two_mass.toml", "two_mass"),
+];
+
+fn main() {
+    if let Err(e) = run() {
+        eprintln!("error: {e}");
+        std::process::exit(1);
+    }
+}
+
+fn run() -> Result<(), Box<dyn Error>> {
+    let out = PathBuf::from(std::env::var_os("OUT_DIR").ok_or("OUT_DIR is not set")?);
+
+    std::fs::copy("memory.x", out.join("memory.x"))?;
+    println!("cargo:rustc-link-search={}", out.display());
+    println!("cargo:rustc-link-arg=-Tlink.x");
+    println!("cargo:rerun-if-changed=memory.x");
+    println!("cargo:rerun-if-changed=build/fixed_tables.rs");
+
+    for (model, stem) in MODELS {
+        println!("cargo:rerun-if-changed={model}");
+        for (scalar, suffix) in [(Scalar::F32, "f32"), (Scalar::F64, "f64")] {
+            let file = out.join(format!("{stem}_{suffix}.rs"));
+            let design = emit_file(Path::new(model), &file, scalar)
+                .map_err(|e| format!("{model}: {e}"))?;
+            if scalar == Scalar::F32 {
+                for w in &design.warnings {
+                    println!("cargo:warning={model}: {w}");
+                }
+            }
+        }
+    }
+
+    let conveyor = design_file(Path::new("../conveyor.toml"))?;
+    fixed_tables::write(&conveyor, CONVEYOR_SCALES, &out.join("conveyor_fixed.rs"))?;
+    let two_mass = design_file(Path::new("models/two_mass.toml"))?;
+    fixed_tables::write(&two_mass, TWO_MASS_SCALES, &out.join("two_mass_fixed.rs"))?;
+    Ok(())
+}
+
+/// Signal scale exponents (|v| < 2^s) of the conveyor's Q tables, chosen
+/// for the firmware's scenario with one bit of headroom: angle within 64 rad
+/// (the firmware keeps it in a window, see conveyor.toml), speed within
+/// 512 rad/s (the belt reaches 300), current within 8 A (limit 5 A).
+const CONVEYOR_SCALES: Scales<2, 1, 1> = Scales {
+    state: [7, 10],
+    input: [4],
+    output: [7],
+};
+
+/// The two-mass drive's scales, chosen the same way: angles within 64 rad,
+/// speeds within 1024 rad/s, current within 8 A.
+const TWO_MASS_SCALES: Scales<4, 1, 2> = Scales {
+    state: [7, 11, 7, 11],
+    input: [4],
+    output: [7, 7],
+};
