@@ -261,11 +261,36 @@ fn refusals() {
             ..
         })
     ));
-    // Single output, repeated pole: refused (the closed loop would be defective).
+    // Two outputs, a pole three times: refused (the closed loop would need a
+    // defective eigenstructure the eigenvector method cannot build).
+    let a3 = mat![0.0, 1.0, 0.0; 0.0, 0.0, 1.0; 0.0, 0.0, 0.0];
+    let c2 = mat![1.0, 0.0, 0.0; 0.0, 1.0, 0.0];
     assert!(matches!(
-        place_observer_poles(&a, &cm, &[c(0.5, 0.0), c(0.5, 0.0)]),
-        Err(NumericsError::PoleMultiplicity { limit: 1, .. })
+        place_observer_poles(&a3, &c2, &[c(0.5, 0.0), c(0.5, 0.0), c(0.5, 0.0)]),
+        Err(NumericsError::PoleMultiplicity { limit: 2, .. })
     ));
+}
+
+/// Single output, repeated pole: the unique gain of the characteristic
+/// polynomial. For A = [[0, 1], [0, 0]], c = [1, 0]: det(zI − A + L c) =
+/// z² + l₁ z + l₂ = (z − 0.5)² gives L = [−1, 0.25] (closed form).
+#[test]
+fn single_output_repeated_pole_by_characteristic_polynomial() {
+    let a = mat![0.0, 1.0; 0.0, 0.0];
+    let cm = mat![1.0, 0.0];
+    let placed = place_observer_poles(&a, &cm, &[c(0.5, 0.0), c(0.5, 0.0)]).unwrap();
+    assert!(
+        (placed.gain[(0, 0)] + 1.0).abs() < 1e-12 && (placed.gain[(1, 0)] - 0.25).abs() < 1e-12,
+        "{}",
+        placed.gain
+    );
+    assert!(placed.warnings.iter().any(|w| matches!(
+        w,
+        lookout_design::numerics::NumericsWarning::RepeatedPoleSpread {
+            multiplicity: 2,
+            ..
+        }
+    )));
 }
 
 /// Property: random observable pairs (n = 2..6, p = 1..3) with random stable

@@ -451,6 +451,16 @@ pub enum NumericsWarning {
         /// The condition estimate.
         condition: f64,
     },
+    /// A pole repeated beyond the number of outputs was placed through the
+    /// characteristic polynomial; rounding splits it, by `spread`.
+    RepeatedPoleSpread {
+        /// The repeated pole.
+        pole: Complex<f64>,
+        /// How often it was requested.
+        multiplicity: usize,
+        /// Largest distance of the recomputed eigenvalues from it.
+        spread: f64,
+    },
     /// A Riccati iteration converged slowly (a mode close to the unit circle).
     SlowConvergence {
         /// Iterations used.
@@ -481,6 +491,15 @@ impl fmt::Display for NumericsWarning {
                     "{what} is ill-conditioned (condition estimate {condition:e})"
                 )
             }
+            W::RepeatedPoleSpread {
+                pole,
+                multiplicity,
+                spread,
+            } => write!(
+                f,
+                "pole {} requested {multiplicity} times with one output was placed by its characteristic polynomial; a repeated pole is sensitive, and rounding already splits it by {spread:.1e} (expect more in f32 or fixed point)",
+                cplx(pole)
+            ),
             W::SlowConvergence { iterations } => write!(
                 f,
                 "Riccati iteration needed {iterations} doubling steps (a mode is close to the unit circle)"

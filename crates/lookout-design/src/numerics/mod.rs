@@ -28,6 +28,7 @@ mod error;
 pub mod expm;
 pub mod observability;
 pub mod place;
+mod place_polynomial;
 mod subspace;
 
 pub use dare::{KalmanGains, solve_filter_dare};

@@ -19,9 +19,11 @@
 //! from `[Re xⱼ, Im xⱼ]` and the real 2×2 block `[[α, β], [−β, α]]`.
 //!
 //! Repeated poles: a pole may be requested up to `p` times (p = number of
-//! outputs, the dimension of `Sⱼ`); larger multiplicity would need a
-//! non-diagonalisable `A − L C` and is refused with
-//! [`NumericsError::PoleMultiplicity`].
+//! outputs, the dimension of `Sⱼ`); larger multiplicity needs a
+//! non-diagonalisable `A − L C`. With one output the gain is unique and is
+//! then found from the characteristic polynomial instead (verified on the
+//! polynomial, with a sensitivity warning); with several outputs it is
+//! refused with [`NumericsError::PoleMultiplicity`].
 //!
 //! The result is always verified by recomputing `eig(A − L C)`.
 
@@ -111,7 +113,13 @@ pub fn place_observer_poles_with(
             tolerance: tol,
         });
     }
-    let poles = normalise_poles(poles, n, p)?;
+    let requested = poles;
+    let poles = match normalise_poles(requested, n, p) {
+        Err(NumericsError::PoleMultiplicity {
+            pole, multiplicity, ..
+        }) if p == 1 => return place_by_polynomial(a, c, requested, pole, multiplicity),
+        other => other?,
+    };
     let report = observability(a, c)?;
     let dual = knv_state_feedback(&a.transpose(), &c.transpose(), &poles, opts.max_sweeps)?;
     let gain = dual.k.transpose();
@@ -510,5 +518,42 @@ fn knv_state_feedback(
         k,
         condition,
         sweeps,
+    })
+}
+
+/// One output and a pole repeated: the unique gain from the characteristic
+/// polynomial (see `place_polynomial`), with its sensitivity reported.
+fn place_by_polynomial(
+    a: &DMatrix<f64>,
+    c: &DMatrix<f64>,
+    requested: &[C64],
+    pole: C64,
+    multiplicity: usize,
+) -> Result<Placement> {
+    let report = observability(a, c)?;
+    let (gain, _residual) = super::place_polynomial::place_single_output(a, c, requested)?;
+    let achieved = eigenvalues("A - L C", &(a - &gain * c))?;
+    let spread = achieved
+        .iter()
+        .map(|z| {
+            requested
+                .iter()
+                .map(|p| (z - p).norm())
+                .fold(f64::INFINITY, f64::min)
+        })
+        .fold(0.0, f64::max);
+    let mut warnings = report.warnings;
+    warnings.push(super::place_polynomial::sensitivity_warning(
+        pole,
+        multiplicity,
+        spread,
+    ));
+    Ok(Placement {
+        gain,
+        worst_relative_error: spread / requested.iter().map(|p| p.norm()).fold(1.0, f64::max),
+        achieved,
+        eigenvector_condition: f64::INFINITY,
+        sweeps: 0,
+        warnings,
     })
 }
