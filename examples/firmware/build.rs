@@ -49,8 +49,8 @@ fn run() -> Result<(), Box<dyn Error>> {
         println!("cargo:rerun-if-changed={model}");
         for (scalar, suffix) in [(Scalar::F32, "f32"), (Scalar::F64, "f64")] {
             let file = out.join(format!("{stem}_{suffix}.rs"));
-            let design = emit_file(Path::new(model), &file, scalar)
-                .map_err(|e| format!("{model}: {e}"))?;
+            let design =
+                emit_file(Path::new(model), &file, scalar).map_err(|e| format!("{model}: {e}"))?;
             if scalar == Scalar::F32 {
                 for w in &design.warnings {
                     println!("cargo:warning={model}: {w}");

@@ -8,8 +8,7 @@
 //! measured. Invented data.
 
 use lookout::{
-    ChannelMask, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Matrix, Q31,
-    Scales,
+    ChannelMask, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Matrix, Q31, Scales,
 };
 
 /// The checksum the host test records (FNV-1a 64 over the little-endian

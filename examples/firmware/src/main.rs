@@ -29,8 +29,7 @@ use converge::Scenario;
 use cortex_m_rt::{ExceptionFrame, entry, exception};
 use cortex_m_semihosting::{debug, hprintln};
 use lookout::{
-    CurrentObserver, FixedFusedObserver, FixedPredictorObserver, FusedObserver,
-    PredictorObserver,
+    CurrentObserver, FixedFusedObserver, FixedPredictorObserver, FusedObserver, PredictorObserver,
 };
 use observe::Observe;
 

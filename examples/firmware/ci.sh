@@ -1,0 +1,84 @@
+#!/usr/bin/env bash
+# Builds the firmware at opt-level 3 (`release`) and "s" (`release-s`), runs
+# each image once under QEMU (its exit status is the verdict of the on-target
+# checks), fails if the instruction count per step of any variant is above
+# its budget in budgets.txt, and prints the footprint. Needs the
+# thumbv7em-none-eabihf target, rustup's llvm-tools and qemu-system-arm
+# (.ci/run installs them). Run from anywhere: `bash examples/firmware/ci.sh`.
+set -euo pipefail
+cd "$(dirname "$0")"
+
+bin="$(rustc --print sysroot)/lib/rustlib/x86_64-unknown-linux-gnu/bin"
+elf=target/thumbv7em-none-eabihf
+out=target/ci
+mkdir -p "$out"
+
+echo "--- format and lints (the firmware is outside the workspace)"
+cargo fmt --check
+cargo clippy --release -- -D warnings
+
+for profile in release release-s; do
+    echo "--- $profile: build and run under QEMU"
+    cargo build --profile "$profile"
+    status=0
+    ./qemu-run.sh "$elf/$profile/lookout-firmware" >"$out/$profile.txt" || status=$?
+    cat "$out/$profile.txt"
+    if [ "$status" -ne 0 ]; then
+        echo "firmware ($profile) exited with status $status: an on-target check failed" >&2
+        exit 1
+    fi
+done
+
+echo "--- instruction counts per step against budgets.txt (instruction counts, not cycles)"
+# budgets.txt: variant scalar profile budget; the run prints
+# `cost variant=V scalar=S n= m= p= instructions=I macs=K`.
+over=0
+while read -r variant scalar profile budget; do
+    case "$variant" in '' | '#'*) continue ;; esac
+    line=$(grep -E "^cost variant=$variant scalar=$scalar " "$out/$profile.txt" || true)
+    if [ -z "$line" ]; then
+        echo "no cost line for $variant $scalar in the $profile run" >&2
+        over=1
+        continue
+    fi
+    got=$(sed -E 's/.* instructions=([0-9.]+) .*/\1/' <<<"$line")
+    macs=$(sed -E 's/.* macs=([0-9]+).*/\1/' <<<"$line")
+    verdict=$(awk -v g="$got" -v b="$budget" 'BEGIN { print (g <= b) ? "ok" : "OVER" }')
+    per_mac=$(awk -v g="$got" -v m="$macs" 'BEGIN { printf "%.2f", g / m }')
+    printf '%-26s %-4s %-10s %8s instructions (%s per multiply-add), budget %s: %s\n' \
+        "$variant" "$scalar" "$profile" "$got" "$per_mac" "$budget" "$verdict"
+    [ "$verdict" = ok ] || over=1
+done <budgets.txt
+if [ "$over" -ne 0 ]; then
+    echo "an instruction count is above its budget (or missing)" >&2
+    exit 1
+fi
+
+echo "--- footprint (bytes)"
+for profile in release release-s; do
+    echo "$profile:"
+    "$bin/llvm-size" -A "$elf/$profile/lookout-firmware" |
+        awk '$1 ~ /^\.(text|rodata|data|bss|vector_table|uninit)$/ { printf "  %-14s %8d\n", $1, $2 }'
+done
+
+echo "--- step code of one (4,1,2) observer at opt-level s (target: at most 2048 bytes)"
+too_big=0
+# Each observer's step and what it reaches out of line: the gate test and
+# the runtime's helpers of that size (not the firmware's wrapper).
+for pattern in \
+    'FusedObserver<f32, 4, 1, 2>>::step|Gate<f32, 2>>::accepts|lookout::[a-z_:]+::<f32, 4, 1, 2>' \
+    'FixedFusedObserver<lookout::fixed::format::Q31, 4, 1, 2>>::step|FixedGate<lookout::fixed::format::Q31, 2>>::accepts|lookout::[a-z_:]+::<lookout::fixed::format::Q31, 4, 1, 2>'; do
+    size=0
+    while read -r _ hex _ name; do
+        size=$((size + 16#$hex))
+        echo "    $((16#$hex)) $name"
+    done < <("$bin/llvm-nm" -C --size-sort -S "$elf/release-s/lookout-firmware" |
+        awk '{ $1 = $1 } 1' | grep -E " [tT] <?lookout::.*($pattern)" || true)
+    echo "  total $size bytes"
+    [ "$size" -gt 0 ] && [ "$size" -le 2048 ] || too_big=1
+done
+if [ "$too_big" -ne 0 ]; then
+    echo "a (4,1,2) step is above 2 KiB at opt-level s (or was not found)" >&2
+    exit 1
+fi
+echo "firmware: all checks passed"
