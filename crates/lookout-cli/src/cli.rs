@@ -40,6 +40,76 @@ pub enum Command {
         #[arg(long, value_enum, default_value_t = ScalarArg::F32)]
         scalar: ScalarArg,
     },
+    /// Run the observer in every number format against a simulated plant
+    /// (optionally perturbed, disturbed and noisy) and report how it does.
+    Simulate(Box<SimArgs>),
+}
+
+/// Options of `lookout simulate`. Numbers are checked by the command itself
+/// so that a bad value gets a message naming the option (exit code 2).
+#[derive(Debug, clap::Args)]
+pub struct SimArgs {
+    /// The model file (TOML).
+    pub model: PathBuf,
+    /// Steps to simulate (default 2000, or the rows of a `csv:` input).
+    #[arg(long, allow_negative_numbers = true)]
+    pub steps: Option<i64>,
+    /// Seed of the random streams (perturbation, noise, dropouts).
+    #[arg(long, default_value_t = 1)]
+    pub seed: u64,
+    /// Initial estimation error x − x̂, one value per estimated state
+    /// (comma separated, state units) or one for all.
+    #[arg(long, value_name = "E[,E..]", allow_hyphen_values = true)]
+    pub initial_error: Option<String>,
+    /// Input signal on every input: step:A[@K], sine:A:HZ, prbs:A[:HOLD] or
+    /// csv:FILE (one row per step, one column per input).
+    #[arg(long, default_value = "step:1")]
+    pub input: String,
+    /// Standard deviation per sample of noise on each plant state (state
+    /// units); default: the model's Kalman process noise, else none.
+    #[arg(long, allow_negative_numbers = true)]
+    pub process_noise: Option<f64>,
+    /// Standard deviation per sample of noise on each output (output
+    /// units); default: the model's Kalman measurement noise, else none.
+    #[arg(long, allow_negative_numbers = true)]
+    pub measurement_noise: Option<f64>,
+    /// Relative perturbation of the true plant's A and B (0.05 = each entry
+    /// off by up to 5 %); default 0, or 0.05 with --sweep.
+    #[arg(long, allow_negative_numbers = true)]
+    pub mismatch: Option<f64>,
+    /// A disturbance on the true plant's input: INPUT:SIZE[@STEP] (input
+    /// index, size in the input's unit, first step).
+    #[arg(long, value_name = "INPUT:SIZE[@STEP]", allow_hyphen_values = true)]
+    pub disturbance: Option<String>,
+    /// Probability in [0, 1] that a reading is missing.
+    #[arg(long, default_value_t = 0.0, allow_negative_numbers = true)]
+    pub dropout_rate: f64,
+    /// Probability in [0, 1] that a reading is an outlier.
+    #[arg(long, default_value_t = 0.0, allow_negative_numbers = true)]
+    pub outlier_rate: f64,
+    /// Size of an outlier in the output's unit (random sign).
+    #[arg(long, default_value_t = 1.0, allow_negative_numbers = true)]
+    pub outlier_size: f64,
+    /// Settling band per estimated state (state units); default 2 % of the
+    /// f64 observer's largest error of each state.
+    #[arg(long, value_name = "T[,T..]")]
+    pub tolerance: Option<String>,
+    /// Print one JSON object instead of the readable report.
+    #[arg(long)]
+    pub json: bool,
+    /// Write the error and pole-map plot (.svg or .png).
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+    /// TrueType font for the plot's text (default: DejaVu Sans where the
+    /// system has it).
+    #[arg(long, value_name = "FILE")]
+    pub font: Option<PathBuf>,
+    /// Write the time series (truth, estimates, errors per format) as CSV.
+    #[arg(long, value_name = "FILE")]
+    pub csv: Option<PathBuf>,
+    /// Monte Carlo over N random plant perturbations of size --mismatch.
+    #[arg(long, value_name = "N", allow_negative_numbers = true)]
+    pub sweep: Option<i64>,
 }
 
 /// `--scalar` values.

@@ -6,10 +6,13 @@
 //! (e.g. the output file cannot be written).
 
 mod cli;
+mod error;
 mod json;
 mod report;
+mod sim;
 
 use clap::Parser;
+use error::CliError;
 use lookout_design::{Design, DesignError, design_file};
 use std::process::ExitCode;
 
@@ -35,7 +38,7 @@ fn main() -> ExitCode {
     }
 }
 
-fn run(args: cli::Args) -> Result<(), DesignError> {
+fn run(args: cli::Args) -> Result<(), CliError> {
     match args.command {
         cli::Command::Design { model, json } => {
             let design = designed(&model)?;
@@ -44,7 +47,12 @@ fn run(args: cli::Args) -> Result<(), DesignError> {
             } else {
                 report::design(&design)
             };
-            write_stdout(text.as_bytes())
+            Ok(write_stdout(text.as_bytes())?)
+        }
+        cli::Command::Simulate(sim_args) => {
+            let design = designed(&sim_args.model)?;
+            let text = sim::simulate(&design, &sim_args)?;
+            Ok(write_stdout(text.as_bytes())?)
         }
         cli::Command::Emit {
             model,
@@ -61,7 +69,9 @@ fn run(args: cli::Args) -> Result<(), DesignError> {
                 }
                 None => {
                     let design = designed(&model)?;
-                    write_stdout(lookout_design::tables_source(&design, scalar)?.as_bytes())
+                    Ok(write_stdout(
+                        lookout_design::tables_source(&design, scalar)?.as_bytes(),
+                    )?)
                 }
             }
         }

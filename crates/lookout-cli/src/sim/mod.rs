@@ -1,0 +1,134 @@
+//! `lookout simulate`: the observer, stepped by the real runtime in every
+//! number format, against a simulated true plant.
+//!
+//! One run: the true plant (the model's plant, perturbed and sampled on its
+//! own, see [`plant`]) is simulated once and its readings recorded; each
+//! format's observer ([`runtime`]) is driven over the same record; the
+//! errors are measured against the truth and the f64 observer
+//! ([`metrics`]). `--sweep N` repeats that for N random perturbations
+//! ([`sweep`]).
+
+pub mod metrics;
+pub mod options;
+pub mod output;
+pub mod plant;
+pub mod plot;
+pub mod rng;
+pub mod runtime;
+pub mod signal;
+pub mod sweep;
+
+use crate::cli::SimArgs;
+use crate::error::CliError;
+use lookout_design::Design;
+use metrics::Metrics;
+use options::SimOptions;
+use plant::{Trajectory, TruePlant};
+use runtime::{Format, FormatRun};
+
+/// Everything one run produced.
+#[derive(Debug, Clone)]
+pub struct RunResult {
+    /// The recorded plant run.
+    pub traj: Trajectory,
+    /// Each format that ran, with its metrics (f64 first).
+    pub formats: Vec<(FormatRun, Metrics)>,
+    /// Formats that could not be built, with the reason.
+    pub skipped: Vec<(Format, String)>,
+    /// Settling band per state.
+    pub tolerance: Vec<f64>,
+    /// Largest relative change applied to an entry of A or B.
+    pub perturbation: f64,
+    /// Non-fatal findings.
+    pub warnings: Vec<String>,
+}
+
+/// The formats the design can run in: f64, f32, and Q31 and Q15 with a
+/// `[fixed_point]` section.
+pub fn formats(design: &Design) -> Vec<Format> {
+    let mut out = vec![Format::F64, Format::F32];
+    if design.fixed_point.is_some() {
+        out.extend([Format::Q31, Format::Q15]);
+    }
+    out
+}
+
+/// One run with plant seed `seed`.
+pub fn run_once(design: &Design, opts: &SimOptions, seed: u64) -> Result<RunResult, CliError> {
+    let plant = TruePlant::of(design, opts.mismatch, seed)?;
+    let (traj, warnings) = plant::record(design, &plant, opts, seed)?;
+    let x0: Vec<f64> = traj
+        .truth
+        .iter()
+        .zip(&opts.initial_error)
+        .map(|(x, e)| x - e)
+        .collect();
+    let designed_format = design.fixed_point.as_ref().map(|f| match f.format {
+        lookout_design::model::FixedFormat::Q31 => Format::Q31,
+        lookout_design::model::FixedFormat::Q15 => Format::Q15,
+    });
+    let mut runs = Vec::new();
+    let mut skipped = Vec::new();
+    for format in formats(design) {
+        match runtime::run(design, format, &traj, &x0) {
+            Ok(r) => runs.push(r),
+            // The other Q format was not designed for: it may not fit.
+            Err(CliError::BadInput(why))
+                if matches!(format, Format::Q31 | Format::Q15)
+                    && Some(format) != designed_format =>
+            {
+                skipped.push((format, why));
+            }
+            Err(e) => return Err(e),
+        }
+    }
+    let reference = runs
+        .first()
+        .cloned()
+        .ok_or_else(|| CliError::Failure("the f64 observer did not run".into()))?;
+    let tolerance = opts
+        .tolerance
+        .clone()
+        .unwrap_or_else(|| metrics::default_tolerance(&traj, &reference));
+    let formats = runs
+        .into_iter()
+        .map(|r| {
+            let m = metrics::measure(&traj, &r, &reference, &tolerance);
+            (r, m)
+        })
+        .collect();
+    Ok(RunResult {
+        traj,
+        formats,
+        skipped,
+        tolerance,
+        perturbation: plant.perturbation,
+        warnings,
+    })
+}
+
+/// `lookout simulate`: returns what goes to standard output.
+pub fn simulate(design: &Design, args: &SimArgs) -> Result<String, CliError> {
+    runtime::check_sizes(design)?;
+    let opts = SimOptions::from_args(args, design.n(), design.m())?;
+    if let Some(runs) = opts.sweep {
+        let summary = sweep::run(design, &opts, runs)?;
+        return Ok(if args.json {
+            output::sweep_json(design, &opts, &summary)
+        } else {
+            output::sweep_text(design, &opts, &summary)
+        });
+    }
+    let result = run_once(design, &opts, opts.seed)?;
+    if let Some(path) = &args.csv {
+        output::write_csv(path, design, &result)?;
+    }
+    if let Some(path) = &args.plot {
+        plot::write(path, args.font.as_deref(), design, &result)?;
+    }
+    Ok(if args.json {
+        output::json(design, &opts, &result)
+    } else {
+        output::text(design, &opts, &result)
+    })
+}

@@ -1,0 +1,205 @@
+//! The `simulate` options, checked: every bad value is refused here with a
+//! message naming the option (exit code 2), before anything is simulated.
+
+use super::signal::InputSignal;
+use crate::cli::SimArgs;
+use crate::error::CliError;
+
+/// A constant or step disturbance added to one input channel of the true
+/// plant (the observers never see it).
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct InputDisturbance {
+    /// The input channel it adds to.
+    pub input: usize,
+    /// Its size, in that input's unit.
+    pub size: f64,
+    /// The first step it acts on (0: from the start).
+    pub start: usize,
+}
+
+/// Checked simulation settings.
+#[derive(Debug, Clone)]
+pub struct SimOptions {
+    /// Steps simulated.
+    pub steps: usize,
+    /// Seed of every random stream.
+    pub seed: u64,
+    /// Initial estimation error x − x̂ of each estimated state.
+    pub initial_error: Vec<f64>,
+    /// The commanded input.
+    pub input: InputSignal,
+    /// Standard deviation per sample of the noise on each plant state
+    /// (`None`: the model's Kalman noise, or none).
+    pub process_noise: Option<f64>,
+    /// Standard deviation per sample of the noise on each output (`None`:
+    /// the model's Kalman measurement noise, or none).
+    pub measurement_noise: Option<f64>,
+    /// Relative perturbation of A and B: each entry times 1 + δ·ξ, ξ
+    /// uniform in [−1, 1].
+    pub mismatch: f64,
+    /// A disturbance on one input of the true plant.
+    pub disturbance: Option<InputDisturbance>,
+    /// Probability that a reading is missing (per step and output).
+    pub dropout_rate: f64,
+    /// Probability that a reading is an outlier.
+    pub outlier_rate: f64,
+    /// Size of an outlier, in the output's unit (sign random).
+    pub outlier_size: f64,
+    /// Settling band of each estimated state (`None`: 2 % of the f64
+    /// observer's largest error of that state).
+    pub tolerance: Option<Vec<f64>>,
+    /// Monte Carlo runs (`None`: one run).
+    pub sweep: Option<usize>,
+}
+
+fn bad(message: String) -> CliError {
+    CliError::BadInput(message)
+}
+
+fn rate(name: &str, value: f64) -> Result<f64, CliError> {
+    if (0.0..=1.0).contains(&value) {
+        Ok(value)
+    } else {
+        Err(bad(format!(
+            "--{name}: must be a probability in [0, 1], got {value}"
+        )))
+    }
+}
+
+fn non_negative(name: &str, value: Option<f64>) -> Result<Option<f64>, CliError> {
+    match value {
+        Some(v) if !(v.is_finite() && v >= 0.0) => Err(bad(format!(
+            "--{name}: must be a finite number ≥ 0, got {v}"
+        ))),
+        other => Ok(other),
+    }
+}
+
+/// Comma-separated finite numbers, one per state (or one for all).
+fn per_state(name: &str, text: &str, n: usize) -> Result<Vec<f64>, CliError> {
+    let values = text
+        .split(',')
+        .map(|s| {
+            s.trim()
+                .parse::<f64>()
+                .ok()
+                .filter(|v| v.is_finite())
+                .ok_or_else(|| bad(format!("--{name}: `{}` is not a finite number", s.trim())))
+        })
+        .collect::<Result<Vec<f64>, CliError>>()?;
+    match values.len() {
+        1 => Ok(vec![values.first().copied().unwrap_or(0.0); n]),
+        k if k == n => Ok(values),
+        k => Err(bad(format!(
+            "--{name}: expected 1 value or {n} (one per estimated state), found {k}"
+        ))),
+    }
+}
+
+impl SimOptions {
+    /// Checks `args` for a model with `n` estimated states, `m` inputs and
+    /// sample period `t`.
+    pub fn from_args(args: &SimArgs, n: usize, m: usize) -> Result<Self, CliError> {
+        let input = InputSignal::parse(&args.input, m)?;
+        let steps = match (args.steps, input.rows()) {
+            (Some(s), _) if s <= 0 => {
+                return Err(bad(format!("--steps: must be a whole number > 0, got {s}")));
+            }
+            (Some(s), Some(rows)) if s as u64 > rows as u64 => {
+                return Err(bad(format!(
+                    "--steps {s}: the input file has only {rows} rows (one per step)"
+                )));
+            }
+            (Some(s), _) => usize::try_from(s)
+                .map_err(|_| bad(format!("--steps: {s} is too many for this machine")))?,
+            (None, Some(rows)) => rows,
+            (None, None) => 2000,
+        };
+        let initial_error = match &args.initial_error {
+            Some(text) => per_state("initial-error", text, n)?,
+            None => vec![0.0; n],
+        };
+        let tolerance = match &args.tolerance {
+            Some(text) => {
+                let t = per_state("tolerance", text, n)?;
+                if let Some(v) = t.iter().find(|v| **v <= 0.0) {
+                    return Err(bad(format!("--tolerance: must be > 0, got {v}")));
+                }
+                Some(t)
+            }
+            None => None,
+        };
+        let mismatch = non_negative("mismatch", args.mismatch)?;
+        let sweep = match args.sweep {
+            Some(s) if s <= 0 => {
+                return Err(bad(format!("--sweep: must be a whole number > 0, got {s}")));
+            }
+            Some(s) => {
+                Some(usize::try_from(s).map_err(|_| bad(format!("--sweep: {s} is too many")))?)
+            }
+            None => None,
+        };
+        let disturbance = match &args.disturbance {
+            Some(text) => Some(parse_disturbance(text, m)?),
+            None => None,
+        };
+        let outlier_size = args.outlier_size;
+        if !outlier_size.is_finite() {
+            return Err(bad(format!(
+                "--outlier-size: must be a finite number, got {outlier_size}"
+            )));
+        }
+        Ok(Self {
+            steps,
+            seed: args.seed,
+            initial_error,
+            input,
+            process_noise: non_negative("process-noise", args.process_noise)?,
+            measurement_noise: non_negative("measurement-noise", args.measurement_noise)?,
+            // A sweep without a stated size perturbs by 5 % (an invented
+            // default, large enough to matter for most drives' parameters).
+            mismatch: mismatch.unwrap_or(if sweep.is_some() { 0.05 } else { 0.0 }),
+            disturbance,
+            dropout_rate: rate("dropout-rate", args.dropout_rate)?,
+            outlier_rate: rate("outlier-rate", args.outlier_rate)?,
+            outlier_size,
+            tolerance,
+            sweep,
+        })
+    }
+}
+
+/// `INPUT:SIZE[@STEP]`.
+fn parse_disturbance(text: &str, m: usize) -> Result<InputDisturbance, CliError> {
+    let bad = |why: String| {
+        bad(format!(
+            "--disturbance {text}: {why} (expected INPUT:SIZE[@STEP])"
+        ))
+    };
+    let (input, rest) = text
+        .split_once(':')
+        .ok_or_else(|| bad("no `:` after the input index".into()))?;
+    let input: usize = input
+        .trim()
+        .parse()
+        .map_err(|_| bad(format!("input `{input}` is not an index")))?;
+    if input >= m {
+        return Err(bad(format!("input {input} does not exist (m = {m})")));
+    }
+    let (size, start) = match rest.split_once('@') {
+        Some((s, k)) => (
+            s,
+            k.trim()
+                .parse::<usize>()
+                .map_err(|_| bad(format!("start `{k}` is not a whole number ≥ 0")))?,
+        ),
+        None => (rest, 0),
+    };
+    let size = size
+        .trim()
+        .parse::<f64>()
+        .ok()
+        .filter(|v| v.is_finite())
+        .ok_or_else(|| bad(format!("size `{size}` is not a finite number")))?;
+    Ok(InputDisturbance { input, size, start })
+}

@@ -1,0 +1,262 @@
+//! The report, the JSON object and the CSV time series of `simulate`.
+
+use super::RunResult;
+use super::metrics::Metrics;
+use super::options::SimOptions;
+use super::runtime::FormatRun;
+use super::sweep::SweepSummary;
+use crate::error::CliError;
+use lookout_design::Design;
+use serde_json::{Value, json};
+use std::fmt::Write as _;
+use std::path::Path;
+
+/// Unit of each estimated state ("" where the model gives none; the
+/// disturbance states' units are not in the model).
+pub fn state_units(design: &Design) -> Vec<String> {
+    let units = design.model.plant.state_units.clone().unwrap_or_default();
+    (0..design.n())
+        .map(|i| units.get(i).cloned().unwrap_or_default())
+        .collect()
+}
+
+fn verdict(run: &FormatRun, m: &Metrics, t: f64) -> String {
+    let tail = format!(
+        "{} saturation{}, {} gated",
+        run.saturations,
+        if run.saturations == 1 { "" } else { "s" },
+        run.gated
+    );
+    match (m.converged, m.settling_step) {
+        (true, Some(k)) => format!(
+            "CONVERGED: within tolerance from step {k} ({:.4} s); {tail}",
+            k as f64 * t
+        ),
+        _ if !m.stable => format!("NOT CONVERGED: the error grows or is not finite; {tail}"),
+        _ => format!("NOT CONVERGED: the error never stays within tolerance; {tail}"),
+    }
+}
+
+/// The readable report.
+pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
+    let t = design.model.sample_period;
+    let names = design.state_names();
+    let units = state_units(design);
+    let mut s = String::new();
+    let _ = writeln!(
+        s,
+        "{}: {} steps of {} s (seed {}), {} observer",
+        design.origin,
+        r.traj.steps,
+        t,
+        opts.seed,
+        match (&design.gain, design.model.observer.form) {
+            (None, _) => "held (fused)",
+            (_, lookout_design::model::Form::Predictor) => "predictor",
+            (_, lookout_design::model::Form::Current) => "current-form",
+        }
+    );
+    let _ = writeln!(
+        s,
+        "true plant: A and B perturbed by up to {:.3} % (asked {:.3} %); {} readings dropped, {} outliers",
+        100.0 * r.perturbation,
+        100.0 * opts.mismatch,
+        r.traj.dropped,
+        r.traj.outliers
+    );
+    for (i, name) in names.iter().enumerate() {
+        let _ = writeln!(
+            s,
+            "tolerance {name}: {:.3e} {}",
+            r.tolerance.get(i).copied().unwrap_or(f64::NAN),
+            units.get(i).map_or("", String::as_str)
+        );
+    }
+    for (run, m) in &r.formats {
+        let _ = writeln!(s, "\n{}", run.format.name());
+        let _ = writeln!(
+            s,
+            "  {:<14} {:>13} {:>13} {:>13}  unit",
+            "state", "rms error", "final error", "max |x̂−x̂64|"
+        );
+        for (i, name) in names.iter().enumerate() {
+            let get = |v: &Vec<f64>| v.get(i).copied().unwrap_or(f64::NAN);
+            let _ = writeln!(
+                s,
+                "  {:<14} {:>13.4e} {:>13.4e} {:>13.4e}  {}",
+                name,
+                get(&m.rms_error),
+                get(&m.final_error),
+                get(&m.max_deviation_from_f64),
+                units.get(i).map_or("", String::as_str)
+            );
+        }
+        let _ = writeln!(s, "  verdict {}: {}", run.format.name(), verdict(run, m, t));
+    }
+    for (f, why) in &r.skipped {
+        let _ = writeln!(s, "\n{}: not run: {why}", f.name());
+    }
+    for w in &r.warnings {
+        let _ = writeln!(s, "\nwarning: {w}");
+    }
+    s
+}
+
+/// The `--json` object (stable keys, see docs/simulate.md).
+pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
+    let formats: Vec<Value> = r
+        .formats
+        .iter()
+        .map(|(run, m)| {
+            json!({
+                "format": run.format.name(),
+                "rms_error": m.rms_error,
+                "final_error": m.final_error,
+                "settling_step": m.settling_step,
+                "max_deviation_from_f64": m.max_deviation_from_f64,
+                "saturations": run.saturations,
+                "gated": run.gated,
+                "dropped": r.traj.dropped,
+                "stable": m.stable,
+                "converged": m.converged,
+            })
+        })
+        .collect();
+    let value = json!({
+        "model": design.model.name,
+        "steps": r.traj.steps,
+        "seed": opts.seed,
+        "sample_period": design.model.sample_period,
+        "state_names": design.state_names(),
+        "state_units": state_units(design),
+        "tolerance": r.tolerance,
+        "mismatch": opts.mismatch,
+        "perturbation": r.perturbation,
+        "dropped": r.traj.dropped,
+        "outliers": r.traj.outliers,
+        "formats": formats,
+        "skipped_formats": r.skipped.iter().map(|(f, why)| json!({"format": f.name(), "reason": why})).collect::<Vec<_>>(),
+        "warnings": r.warnings,
+    });
+    format!("{value}\n")
+}
+
+/// Writes the time series: step, time, then per state its truth, then per
+/// format and state its estimate and its error.
+pub fn write_csv(path: &Path, design: &Design, r: &RunResult) -> Result<(), CliError> {
+    let names = design.state_names();
+    let n = r.traj.n;
+    let t = design.model.sample_period;
+    let mut s = String::from("step,time");
+    for name in &names {
+        let _ = write!(s, ",true_{name}");
+    }
+    for (run, _) in &r.formats {
+        for name in &names {
+            let _ = write!(
+                s,
+                ",{0}_estimate_{name},{0}_error_{name}",
+                run.format.name()
+            );
+        }
+    }
+    s.push('\n');
+    for k in 0..=r.traj.steps {
+        let _ = write!(s, "{k},{:?}", k as f64 * t);
+        let truth = r.traj.truth.get(k * n..(k + 1) * n).unwrap_or(&[]);
+        for x in truth {
+            let _ = write!(s, ",{x:?}");
+        }
+        for (run, _) in &r.formats {
+            let est = run.estimate.get(k * n..(k + 1) * n).unwrap_or(&[]);
+            for (xh, x) in est.iter().zip(truth) {
+                let _ = write!(s, ",{xh:?},{:?}", x - xh);
+            }
+        }
+        s.push('\n');
+    }
+    std::fs::write(path, s)
+        .map_err(|e| CliError::Failure(format!("{}: cannot write: {e}", path.display())))
+}
+
+/// The sweep report.
+pub fn sweep_text(design: &Design, opts: &SimOptions, s: &SweepSummary) -> String {
+    let mut out = String::new();
+    let _ = writeln!(
+        out,
+        "{}: sweep of {} runs, A and B perturbed by up to {} % each, {} steps each (seed {})",
+        design.origin,
+        s.runs,
+        100.0 * opts.mismatch,
+        opts.steps,
+        opts.seed
+    );
+    let names = design.state_names();
+    for f in &s.formats {
+        let _ = writeln!(
+            out,
+            "\n{}: error bounded in {:.1} % of runs, converged in {:.1} %",
+            f.format.name(),
+            100.0 * f.stable as f64 / s.runs as f64,
+            100.0 * f.converged as f64 / s.runs as f64
+        );
+        for w in &f.worst {
+            let errs: Vec<String> = names
+                .iter()
+                .zip(&w.final_error)
+                .map(|(n, e)| format!("{n} {e:.3e}"))
+                .collect();
+            let _ = writeln!(
+                out,
+                "  worst: run {} (seed {}, largest entry change {:.2} %): final error {}; {}",
+                w.run,
+                w.seed,
+                100.0 * w.perturbation,
+                errs.join(", "),
+                if w.converged {
+                    "converged"
+                } else {
+                    "not converged"
+                }
+            );
+        }
+    }
+    for (f, why) in &s.skipped {
+        let _ = writeln!(out, "\n{}: not run: {why}", f.name());
+    }
+    out
+}
+
+/// The sweep as one JSON object (no timing, so it is reproducible).
+pub fn sweep_json(design: &Design, opts: &SimOptions, s: &SweepSummary) -> String {
+    let formats: Vec<Value> = s
+        .formats
+        .iter()
+        .map(|f| {
+            json!({
+                "format": f.format.name(),
+                "stable_fraction": f.stable as f64 / s.runs as f64,
+                "converged_fraction": f.converged as f64 / s.runs as f64,
+                "worst": f.worst.iter().map(|w| json!({
+                    "run": w.run,
+                    "seed": w.seed,
+                    "perturbation": w.perturbation,
+                    "final_error": w.final_error,
+                    "settling_step": w.settling_step,
+                    "converged": w.converged,
+                })).collect::<Vec<_>>(),
+            })
+        })
+        .collect();
+    let value = json!({
+        "model": design.model.name,
+        "runs": s.runs,
+        "steps": opts.steps,
+        "seed": opts.seed,
+        "mismatch": opts.mismatch,
+        "state_names": design.state_names(),
+        "formats": formats,
+        "skipped_formats": s.skipped.iter().map(|(f, why)| json!({"format": f.name(), "reason": why})).collect::<Vec<_>>(),
+    });
+    format!("{value}\n")
+}

@@ -1,0 +1,256 @@
+//! `--plot FILE.svg|FILE.png`: the estimation error of each state over time
+//! for each format (one panel per state), and the pole map.
+//!
+//! Text needs a TrueType font (plotters lays text out with it, for SVG as
+//! well): `--font FILE`, else DejaVu Sans or Liberation Sans where the
+//! system has them (Debian: `fonts-dejavu-core`).
+
+use super::RunResult;
+use super::output::state_units;
+use crate::error::CliError;
+use lookout_design::Design;
+use nalgebra::Complex;
+use plotters::coord::Shift;
+use plotters::prelude::*;
+use std::path::Path;
+use std::sync::OnceLock;
+
+/// Fonts tried when `--font` is not given.
+const FONT_PATHS: &[&str] = &[
+    "/usr/share/fonts/truetype/dejavu/DejaVuSans.ttf",
+    "/usr/share/fonts/TTF/DejaVuSans.ttf",
+    "/usr/share/fonts/dejavu/DejaVuSans.ttf",
+    "/usr/share/fonts/truetype/liberation/LiberationSans-Regular.ttf",
+    "/Library/Fonts/Arial.ttf",
+    "C:\\Windows\\Fonts\\arial.ttf",
+];
+
+const WIDTH: u32 = 1400;
+const PANEL_HEIGHT: u32 = 260;
+
+/// One colour and stroke per format: the f64 reference wide and pale, the
+/// others narrow on top of it, so coinciding curves stay visible.
+fn style(i: usize) -> ShapeStyle {
+    let (colour, width) = match i {
+        0 => (RGBColor(150, 190, 240), 6),
+        1 => (RGBColor(220, 120, 20), 2),
+        2 => (RGBColor(30, 30, 30), 1),
+        _ => (RGBColor(200, 20, 120), 1),
+    };
+    colour.stroke_width(width)
+}
+
+fn register_font(font: Option<&Path>) -> Result<(), CliError> {
+    static LOADED: OnceLock<Result<(), String>> = OnceLock::new();
+    LOADED
+        .get_or_init(|| {
+            let candidates: Vec<&Path> = match font {
+                Some(p) => vec![p],
+                None => FONT_PATHS.iter().map(Path::new).collect(),
+            };
+            let (path, bytes) = candidates
+                .iter()
+                .find_map(|p| std::fs::read(p).ok().map(|b| (*p, b)))
+                .ok_or_else(|| match font {
+                    Some(p) => format!("--font {}: cannot read it", p.display()),
+                    None => "the plot needs a TrueType font: none of the usual system fonts was found; pass --font FILE.ttf".to_string(),
+                })?;
+            // Read once per process; plotters keeps the font for the
+            // program's lifetime.
+            let bytes: &'static [u8] = Box::leak(bytes.into_boxed_slice());
+            plotters::style::register_font("sans-serif", FontStyle::Normal, bytes)
+                .map_err(|_| format!("{}: not a usable TrueType font", path.display()))
+        })
+        .clone()
+        .map_err(CliError::BadInput)
+}
+
+/// Writes the plot; the format follows the file's extension.
+pub fn write(path: &Path, font: Option<&Path>, d: &Design, r: &RunResult) -> Result<(), CliError> {
+    register_font(font)?;
+    let n = d.n();
+    let height = PANEL_HEIGHT * n.max(2) as u32 + 60;
+    let fail =
+        |e: String| CliError::Failure(format!("{}: cannot draw the plot: {e}", path.display()));
+    match path.extension().and_then(|e| e.to_str()) {
+        Some("svg") => {
+            let root = SVGBackend::new(path, (WIDTH, height)).into_drawing_area();
+            draw(&root, d, r).map_err(fail)?;
+            root.present().map_err(|e| fail(e.to_string()))
+        }
+        Some("png") => {
+            let root = BitMapBackend::new(path, (WIDTH, height)).into_drawing_area();
+            draw(&root, d, r).map_err(fail)?;
+            root.present().map_err(|e| fail(e.to_string()))
+        }
+        _ => Err(CliError::BadInput(format!(
+            "--plot {}: the file name must end in .svg or .png",
+            path.display()
+        ))),
+    }
+}
+
+fn draw<DB: DrawingBackend>(
+    root: &DrawingArea<DB, Shift>,
+    d: &Design,
+    r: &RunResult,
+) -> Result<(), String> {
+    let e = |x: DrawingAreaErrorKind<DB::ErrorType>| x.to_string();
+    root.fill(&WHITE).map_err(e)?;
+    let title = format!(
+        "{}: estimation error x − x̂ per number format ({} steps of {} s)",
+        d.model.name, r.traj.steps, d.model.sample_period
+    );
+    let (top, body) = root.split_vertically(50);
+    top.titled(&title, ("sans-serif", 22)).map_err(e)?;
+    let (left, right) = body.split_horizontally(WIDTH - 480);
+    let panels = left.split_evenly((d.n(), 1));
+    let names = d.state_names();
+    let units = state_units(d);
+    let t = d.model.sample_period;
+    let n = r.traj.n;
+    for (i, area) in panels.iter().enumerate() {
+        let series: Vec<Vec<(f64, f64)>> = r
+            .formats
+            .iter()
+            .map(|(run, _)| {
+                r.traj
+                    .truth
+                    .iter()
+                    .skip(i)
+                    .step_by(n)
+                    .zip(run.estimate.iter().skip(i).step_by(n))
+                    .enumerate()
+                    .map(|(k, (x, xh))| (k as f64 * t, x - xh))
+                    .collect()
+            })
+            .collect();
+        let (lo, hi) = series
+            .iter()
+            .flatten()
+            .filter(|p| p.1.is_finite())
+            .fold((0.0f64, 0.0f64), |(lo, hi), p| (lo.min(p.1), hi.max(p.1)));
+        let pad = ((hi - lo) * 0.08).max(1e-12);
+        let unit = units.get(i).cloned().unwrap_or_default();
+        let name = names.get(i).cloned().unwrap_or_default();
+        let mut chart = ChartBuilder::on(area)
+            .margin(10)
+            .caption(name, ("sans-serif", 18))
+            .x_label_area_size(40)
+            .y_label_area_size(90)
+            .build_cartesian_2d(0.0..r.traj.steps as f64 * t, (lo - pad)..(hi + pad))
+            .map_err(e)?;
+        chart
+            .configure_mesh()
+            .x_desc("time (s)")
+            .y_desc(if unit.is_empty() {
+                "error".to_string()
+            } else {
+                format!("error ({unit})")
+            })
+            .y_label_formatter(&|v| format!("{v:.3e}"))
+            .label_style(("sans-serif", 14))
+            .axis_desc_style(("sans-serif", 15))
+            .draw()
+            .map_err(e)?;
+        for (j, ((run, m), points)) in r.formats.iter().zip(series).enumerate() {
+            let s = style(j);
+            let dev = m.max_deviation_from_f64.get(i).copied().unwrap_or(0.0);
+            let label = if j == 0 {
+                run.format.name().to_string()
+            } else {
+                format!("{} (max |x̂ − x̂f64| {dev:.1e})", run.format.name())
+            };
+            chart
+                .draw_series(LineSeries::new(points, s))
+                .map_err(e)?
+                .label(label)
+                .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], s));
+        }
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperRight)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .label_font(("sans-serif", 14))
+            .draw()
+            .map_err(e)?;
+    }
+    pole_map(&right.margin(10, 10, 10, 10), d).map_err(|x| x.to_string())
+}
+
+fn pole_map<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    d: &Design,
+) -> Result<(), DrawingAreaErrorKind<DB::ErrorType>> {
+    let all: Vec<Complex<f64>> = d
+        .plant_poles
+        .iter()
+        .chain(&d.error_poles)
+        .copied()
+        .collect();
+    let reach = all.iter().map(|z| z.norm()).fold(1.0, f64::max) * 1.15;
+    let (area, _) = area.split_vertically(area.dim_in_pixel().0);
+    let mut chart = ChartBuilder::on(&area)
+        .caption("poles (z-plane)", ("sans-serif", 18))
+        .margin(5)
+        .x_label_area_size(40)
+        .y_label_area_size(50)
+        .build_cartesian_2d(-reach..reach, -reach..reach)?;
+    chart
+        .configure_mesh()
+        .x_desc("Re z")
+        .y_desc("Im z")
+        .label_style(("sans-serif", 14))
+        .axis_desc_style(("sans-serif", 15))
+        .draw()?;
+    let circle: Vec<(f64, f64)> = (0..=360)
+        .map(|k| {
+            let a = (k as f64).to_radians();
+            (a.cos(), a.sin())
+        })
+        .collect();
+    chart
+        .draw_series(LineSeries::new(circle, BLACK.stroke_width(1)))?
+        .label("unit circle")
+        .legend(|(x, y)| PathElement::new(vec![(x, y), (x + 20, y)], BLACK));
+    let blue = RGBColor(30, 90, 200);
+    let red = RGBColor(210, 40, 40);
+    let green = RGBColor(20, 140, 60);
+    chart
+        .draw_series(
+            d.plant_poles
+                .iter()
+                .map(|z| Cross::new((z.re, z.im), 8, blue.stroke_width(2))),
+        )?
+        .label("plant poles (eig Ad)")
+        .legend(move |(x, y)| Cross::new((x + 10, y), 6, blue.stroke_width(2)));
+    chart
+        .draw_series(
+            d.error_poles
+                .iter()
+                .map(|z| Circle::new((z.re, z.im), 8, red.stroke_width(2))),
+        )?
+        .label("designed error poles (eig F)")
+        .legend(move |(x, y)| Circle::new((x + 10, y), 6, red.stroke_width(2)));
+    if let Some(fixed) = &d.fixed_point {
+        let name = lookout_design::fixed_point::format_name(fixed.format);
+        chart
+            .draw_series(
+                fixed
+                    .error_poles
+                    .iter()
+                    .map(|z| TriangleMarker::new((z.re, z.im), 5, green.filled())),
+            )?
+            .label(format!("quantised error poles ({name})"))
+            .legend(move |(x, y)| TriangleMarker::new((x + 10, y), 5, green.filled()));
+    }
+    chart
+        .configure_series_labels()
+        .position(SeriesLabelPosition::LowerLeft)
+        .background_style(WHITE.mix(0.85))
+        .border_style(BLACK)
+        .label_font(("sans-serif", 14))
+        .draw()?;
+    Ok(())
+}
