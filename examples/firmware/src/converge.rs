@@ -14,8 +14,7 @@ pub struct Scenario<'t, const N: usize, const M: usize, const P: usize> {
     pub x0: [f64; N],
     /// Amplitude of the square-wave input.
     pub amplitude: f64,
-    /// Full scale of each state, 2^s from the model's signal scales: errors
-    /// are reported as fractions of it.
+    /// Full scale of each state: errors are reported as fractions of it.
     pub full_scale: [f64; N],
     /// Steps in all.
     pub steps: u32,

@@ -34,7 +34,7 @@ use lookout::{
 use observe::Observe;
 
 /// Tolerance on the settled error, as a fraction of each state's full
-/// scale 2^s, per scalar (reasons in `docs/firmware.md`): f32 2⁻¹⁸ (32 units
+/// scale, per scalar (reasons in `docs/firmware.md`): f32 2⁻¹⁸ (32 units
 /// of f32 rounding at full scale), Q31 2⁻²² (512 LSB), Q15 2⁻⁸ (128 LSB).
 /// A check also needs the settled error to be at most a tenth of the first
 /// step's, so an observer that did not move fails it.
@@ -98,13 +98,14 @@ fn pass(ok: bool) -> &'static str {
     if ok { "ok" } else { "FAIL" }
 }
 
-/// 2^s for each scale exponent.
-fn full_scale<const N: usize>(s: &[i8; N]) -> [f64; N] {
-    s.map(|e| {
-        let p = (0..e.unsigned_abs()).fold(1.0, |v, _| v * 2.0);
-        if e < 0 { 1.0 / p } else { p }
-    })
-}
+/// Full scale of the conveyor's states (angle in rad, speed in rad/s): the
+/// window the firmware keeps the angle in and twice the top speed, as
+/// powers of two. Errors are reported as fractions of it.
+const CONVEYOR_FULL_SCALE: [f64; 2] = [128.0, 1024.0];
+
+/// Full scale of the two-mass drive's states (motor angle, motor speed,
+/// load angle, load speed), chosen the same way.
+const TWO_MASS_FULL_SCALE: [f64; 4] = [128.0, 2048.0, 128.0, 2048.0];
 
 /// Checks convergence of `observer` on `scenario`, then measures its cost
 /// and stack on the settled state; prints both lines.
@@ -154,12 +155,11 @@ fn check<O: Observe<N, M, P>, const N: usize, const M: usize, const P: usize>(
 
 fn conveyor(counter: &cost::Counter) -> bool {
     use tables::{f32, f64, fixed::conveyor_fixed as q};
-    let scale = full_scale(&q::SCALES.state);
     let scenario = Scenario {
         plant: &f64::conveyor::PREDICTOR.plant,
         x0: [1.0, 50.0],
         amplitude: 1.0,
-        full_scale: scale,
+        full_scale: CONVEYOR_FULL_SCALE,
         steps: 2000,
         window: 500,
     };
@@ -183,14 +183,15 @@ fn conveyor(counter: &cost::Counter) -> bool {
         "conveyor-predictor",
         &scenario,
         TOL_Q31,
-        FixedPredictorObserver::new(&q::PREDICTOR_Q31, [lookout::Q31(0); 2]),
+        // Emitted by lookout-design from conveyor.toml's [fixed_point].
+        FixedPredictorObserver::new(&f32::conveyor::PREDICTOR_Q31, [lookout::Q31(0); 2]),
     );
     ok &= check(
         counter,
         "conveyor-fused",
         &scenario,
         TOL_Q31,
-        FixedFusedObserver::new(&q::FUSED_Q31, [lookout::Q31(0); 2]),
+        FixedFusedObserver::new(&f32::conveyor::FUSED_Q31, [lookout::Q31(0); 2]),
     );
     ok &= check(
         counter,
@@ -223,7 +224,7 @@ fn two_mass(counter: &cost::Counter) -> bool {
         plant: &f64::two_mass::PREDICTOR.plant,
         x0: [1.0, 100.0, 0.8, 80.0],
         amplitude: 1.0,
-        full_scale: full_scale(&q::SCALES.state),
+        full_scale: TWO_MASS_FULL_SCALE,
         steps: 2000,
         window: 500,
     };
