@@ -69,7 +69,8 @@ fn register_font(font: Option<&Path>) -> Result<(), CliError> {
 pub fn write(path: &Path, font: Option<&Path>, d: &Design, r: &RunResult) -> Result<(), CliError> {
     register_font(font)?;
     let n = d.n();
-    let height = PANEL_HEIGHT * n.max(2) as u32 + 60;
+    // The right column holds two square pole charts of 460 px.
+    let height = (PANEL_HEIGHT * n.max(2) as u32 + 60).max(2 * 460 + 60);
     let fail =
         |e: String| CliError::Failure(format!("{}: cannot draw the plot: {e}", path.display()));
     match path.extension().and_then(|e| e.to_str()) {
@@ -98,12 +99,12 @@ fn draw<DB: DrawingBackend>(
     let e = |x: DrawingAreaErrorKind<DB::ErrorType>| x.to_string();
     root.fill(&WHITE).map_err(e)?;
     let title = format!(
-        "{}: estimation error x − x̂ per number format ({} steps of {} s)",
+        "{}: estimation error (true state − estimate) per number format, {} steps of {} s",
         d.model.name, r.traj.steps, d.model.sample_period
     );
     let (top, body) = root.split_vertically(50);
     top.titled(&title, ("sans-serif", 22)).map_err(e)?;
-    let (left, right) = body.split_horizontally(WIDTH - 480);
+    let (left, right) = body.split_horizontally(WIDTH - 470);
     let panels = left.split_evenly((d.n(), 1));
     let names = d.state_names();
     let units = state_units(d);
@@ -131,6 +132,8 @@ fn draw<DB: DrawingBackend>(
             .filter(|p| p.1.is_finite())
             .fold((0.0f64, 0.0f64), |(lo, hi), p| (lo.min(p.1), hi.max(p.1)));
         let pad = ((hi - lo) * 0.08).max(1e-12);
+        // Headroom above the data for the legend, so it hides no curve.
+        let room = (hi - lo).max(1e-12) * 0.5;
         let unit = units.get(i).cloned().unwrap_or_default();
         let name = names.get(i).cloned().unwrap_or_default();
         let mut chart = ChartBuilder::on(area)
@@ -138,7 +141,7 @@ fn draw<DB: DrawingBackend>(
             .caption(name, ("sans-serif", 18))
             .x_label_area_size(40)
             .y_label_area_size(90)
-            .build_cartesian_2d(0.0..r.traj.steps as f64 * t, (lo - pad)..(hi + pad))
+            .build_cartesian_2d(0.0..r.traj.steps as f64 * t, (lo - pad)..(hi + room))
             .map_err(e)?;
         chart
             .configure_mesh()
@@ -148,7 +151,7 @@ fn draw<DB: DrawingBackend>(
             } else {
                 format!("error ({unit})")
             })
-            .y_label_formatter(&|v| format!("{v:.3e}"))
+            .y_label_formatter(&|v| tick(*v, hi - lo))
             .label_style(("sans-serif", 14))
             .axis_desc_style(("sans-serif", 15))
             .draw()
@@ -159,7 +162,15 @@ fn draw<DB: DrawingBackend>(
             let label = if j == 0 {
                 run.format.name().to_string()
             } else {
-                format!("{} (max |x̂ − x̂f64| {dev:.1e})", run.format.name())
+                let unit = if unit.is_empty() {
+                    String::new()
+                } else {
+                    format!(" {unit}")
+                };
+                format!(
+                    "{} (largest deviation from f64: {dev:.1e}{unit})",
+                    run.format.name()
+                )
             };
             chart
                 .draw_series(LineSeries::new(points, s))
@@ -179,36 +190,106 @@ fn draw<DB: DrawingBackend>(
     pole_map(&right.margin(10, 10, 10, 10), d).map_err(|x| x.to_string())
 }
 
+/// Tick label for an axis spanning `span`: plain decimals with as many
+/// digits as the span needs, scientific notation for very small or large
+/// values.
+fn tick(v: f64, span: f64) -> String {
+    if v == 0.0 {
+        return "0".into();
+    }
+    let span = if span > 0.0 { span } else { v.abs() };
+    if v.abs() >= 1e4 || span < 1e-3 {
+        return format!("{v:.2e}");
+    }
+    let digits = (2.0 - span.log10().floor()).clamp(0.0, 6.0) as usize;
+    format!("{v:.digits$}")
+}
+
+/// The pole map: the whole unit disc on top, below it a square zoom on the
+/// poles (they crowd near z = 1 at fast sampling).
 fn pole_map<DB: DrawingBackend>(
     area: &DrawingArea<DB, Shift>,
     d: &Design,
 ) -> Result<(), DrawingAreaErrorKind<DB::ErrorType>> {
-    let all: Vec<Complex<f64>> = d
+    let mut all: Vec<Complex<f64>> = d
         .plant_poles
         .iter()
         .chain(&d.error_poles)
         .copied()
         .collect();
+    if let Some(f) = &d.fixed_point {
+        all.extend(f.error_poles.iter().copied());
+    }
     let reach = all.iter().map(|z| z.norm()).fold(1.0, f64::max) * 1.15;
-    let (area, _) = area.split_vertically(area.dim_in_pixel().0);
-    let mut chart = ChartBuilder::on(&area)
-        .caption("poles (z-plane)", ("sans-serif", 18))
+    let side = area.dim_in_pixel().0;
+    let (full, rest) = area.split_vertically(side);
+    pole_chart(
+        &full,
+        d,
+        (-reach, reach),
+        (-reach, reach),
+        "poles (z-plane)",
+        false,
+    )?;
+    let (re_lo, re_hi, im_lo, im_hi) = all.iter().fold(
+        (
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+            f64::INFINITY,
+            f64::NEG_INFINITY,
+        ),
+        |(a, b, c, e), z| (a.min(z.re), b.max(z.re), c.min(z.im), e.max(z.im)),
+    );
+    let half = ((re_hi - re_lo).max(im_hi - im_lo) * 0.6).max(0.01);
+    let (cx, cy) = ((re_lo + re_hi) / 2.0, (im_lo + im_hi) / 2.0);
+    let zoom_side = rest.dim_in_pixel().0.min(rest.dim_in_pixel().1);
+    let (zoom, _) = rest.split_vertically(zoom_side);
+    // Square, with the poles in the lower part and a band above them for
+    // the legend.
+    pole_chart(
+        &zoom,
+        d,
+        (cx - 1.5 * half, cx + 1.5 * half),
+        (cy - 1.0 * half, cy + 2.0 * half),
+        "zoom on the poles",
+        true,
+    )
+}
+
+fn pole_chart<DB: DrawingBackend>(
+    area: &DrawingArea<DB, Shift>,
+    d: &Design,
+    x: (f64, f64),
+    y: (f64, f64),
+    caption: &str,
+    legend: bool,
+) -> Result<(), DrawingAreaErrorKind<DB::ErrorType>> {
+    let span = x.1 - x.0;
+    let mut chart = ChartBuilder::on(area)
+        .caption(caption, ("sans-serif", 18))
         .margin(5)
         .x_label_area_size(40)
-        .y_label_area_size(50)
-        .build_cartesian_2d(-reach..reach, -reach..reach)?;
+        .y_label_area_size(60)
+        .build_cartesian_2d(x.0..x.1, y.0..y.1)?;
     chart
         .configure_mesh()
         .x_desc("Re z")
         .y_desc("Im z")
+        .x_labels(5)
+        .y_labels(5)
+        .x_label_formatter(&|v| tick(*v, span))
+        .y_label_formatter(&|v| tick(*v, span))
         .label_style(("sans-serif", 14))
         .axis_desc_style(("sans-serif", 15))
         .draw()?;
-    let circle: Vec<(f64, f64)> = (0..=360)
+    // Only the points inside the view, so the circle is clipped cleanly.
+    let circle: Vec<(f64, f64)> = (0..=20_000)
         .map(|k| {
-            let a = (k as f64).to_radians();
+            // From −π to π: an arc around z = 1 is one unbroken run of points.
+            let a = (k as f64 / 20_000.0 - 0.5) * std::f64::consts::TAU;
             (a.cos(), a.sin())
         })
+        .filter(|p| p.0 >= x.0 && p.0 <= x.1 && p.1 >= y.0 && p.1 <= y.1)
         .collect();
     chart
         .draw_series(LineSeries::new(circle, BLACK.stroke_width(1)))?
@@ -245,12 +326,14 @@ fn pole_map<DB: DrawingBackend>(
             .label(format!("quantised error poles ({name})"))
             .legend(move |(x, y)| TriangleMarker::new((x + 10, y), 5, green.filled()));
     }
-    chart
-        .configure_series_labels()
-        .position(SeriesLabelPosition::LowerLeft)
-        .background_style(WHITE.mix(0.85))
-        .border_style(BLACK)
-        .label_font(("sans-serif", 14))
-        .draw()?;
+    if legend {
+        chart
+            .configure_series_labels()
+            .position(SeriesLabelPosition::UpperLeft)
+            .background_style(WHITE.mix(0.85))
+            .border_style(BLACK)
+            .label_font(("sans-serif", 14))
+            .draw()?;
+    }
     Ok(())
 }
