@@ -2,6 +2,8 @@
 //! closed-form error recursion, the final-value theorem, itself (same seed)
 //! and bad input.
 
+#![allow(clippy::needless_range_loop)] // indices are matrix positions here
+
 use serde_json::Value;
 use std::path::PathBuf;
 use std::process::{Command, Output};
