@@ -2,11 +2,13 @@
 //! script: the build-script pattern the README teaches.
 //!
 //! * f32 tables (what the firmware runs) and f64 tables (the "true" plant the
-//!   firmware simulates) of each demo model, by `lookout_design::emit_file`;
-//! * Q31 and Q15 tables of the gate-free predictor models, converted from
-//!   the designed f64 tables with the runtime's `from_float` at the scales
-//!   below (see `build/fixed_tables.rs`; a stand-in until `lookout emit`
-//!   writes fixed-point tables itself);
+//!   firmware simulates) of each demo model, by `lookout_design::emit_file`.
+//!   A model with a `[fixed_point]` section also gets its Q31 tables there
+//!   (`PREDICTOR_Q31`, `FUSED_Q31`, `SCALES`);
+//! * Q15 tables of the two predictor models, converted from the designed
+//!   f64 tables with the runtime's `from_float` at the scales below (see
+//!   `build/fixed_tables.rs`: lookout-design emits only the format the model
+//!   file names);
 //! * `memory.x` copied to OUT_DIR, which goes on the link search path, and
 //!   `-Tlink.x` (cortex-m-rt's linker script, which includes `memory.x`).
 //!
@@ -66,8 +68,10 @@ fn run() -> Result<(), Box<dyn Error>> {
     Ok(())
 }
 
-/// Signal scale exponents (|v| < 2^s) of the conveyor's Q tables, chosen
-/// for the firmware's scenario with one bit of headroom: angle within 64 rad
+/// Signal scale exponents (|v| < 2^s) of the conveyor's Q15 tables, chosen
+/// for the firmware's scenario with one bit of headroom (not bounds proven
+/// for every reading, as lookout-design's are: a reading far outside the
+/// scenario saturates, which the step counts in its status): angle within 64 rad
 /// (the firmware keeps it in a window, see conveyor.toml), speed within
 /// 512 rad/s (the belt reaches 300), current within 8 A (limit 5 A).
 const CONVEYOR_SCALES: Scales<2, 1, 1> = Scales {

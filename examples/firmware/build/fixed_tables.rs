@@ -1,14 +1,14 @@
-//! Q31 and Q15 tables for the firmware, converted on the host from a
-//! design's f64 tables with the runtime's `from_float`, and written as Rust
-//! source. A stand-in until `lookout emit` writes fixed-point tables: then
-//! build.rs calls `emit_file` with a Q scalar and this file goes away.
+//! Q15 tables for the firmware, converted on the host from a design's f64
+//! tables with the runtime's `from_float`, and written as Rust source. A
+//! stand-in: lookout-design emits the one format a model's `[fixed_point]`
+//! section names (Q31 for the demo models), and the firmware also runs Q15.
 //!
 //! The signal scales are the caller's. Only gate-free predictor designs are
 //! written: predictor and fused tables.
 
 use lookout::{
     Fixed, FixedFusedTables, FixedOutputMap, FixedPredictorTables, FusedTables, Matrix, Plant,
-    PredictorTables, Q15, Q31, Scales,
+    PredictorTables, Q15, Scales,
 };
 use lookout_design::Design;
 use lookout_design::model::Form;
@@ -16,8 +16,8 @@ use nalgebra::DMatrix;
 use std::fmt::Write as _;
 use std::path::Path;
 
-/// Writes `pub mod <model>_fixed { SCALES, PREDICTOR_Q31, FUSED_Q31,
-/// PREDICTOR_Q15, FUSED_Q15 }` for `design` to `out`.
+/// Writes `pub mod <model>_fixed { SCALES, PREDICTOR_Q15, FUSED_Q15 }` for
+/// `design` to `out`.
 pub fn write<const N: usize, const M: usize, const P: usize>(
     design: &Design,
     scales: Scales<N, M, P>,
@@ -58,7 +58,7 @@ pub fn write<const N: usize, const M: usize, const P: usize>(
         s,
         "// Fixed-point tables of {origin} (model file hash {}), converted by\n\
          // lookout's from_float in the firmware's build.rs - do not edit.\n\
-         /// Q31 and Q15 tables of the model `{}` (generated; do not edit).\n\
+         /// Q15 tables of the model `{}` (generated; do not edit).\n\
          #[allow(dead_code)]\npub mod {module} {{",
         design.model_hash, design.model.name
     );
@@ -68,16 +68,10 @@ pub fn write<const N: usize, const M: usize, const P: usize>(
          pub const SCALES: lookout::Scales<{N}, {M}, {P}> = {};",
         scales_source(&scales)
     );
-    let pq31 = FixedPredictorTables::<Q31, N, M, P>::from_float(&predictor, scales)
-        .map_err(|e| format!("{origin}: predictor Q31: {e}"))?;
-    let fq31 = FixedFusedTables::<Q31, N, M, P>::from_float(&fused, scales)
-        .map_err(|e| format!("{origin}: fused Q31: {e}"))?;
     let pq15 = FixedPredictorTables::<Q15, N, M, P>::from_float(&predictor, scales)
         .map_err(|e| format!("{origin}: predictor Q15: {e}"))?;
     let fq15 = FixedFusedTables::<Q15, N, M, P>::from_float(&fused, scales)
         .map_err(|e| format!("{origin}: fused Q15: {e}"))?;
-    predictor_source(&mut s, "PREDICTOR_Q31", "Q31", &pq31);
-    fused_source(&mut s, "FUSED_Q31", "Q31", &fq31);
     predictor_source(&mut s, "PREDICTOR_Q15", "Q15", &pq15);
     fused_source(&mut s, "FUSED_Q15", "Q15", &fq15);
     s.push_str("}\n");

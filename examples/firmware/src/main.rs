@@ -248,7 +248,8 @@ fn two_mass(counter: &cost::Counter) -> bool {
         "two-mass-fused",
         &scenario,
         TOL_Q31,
-        FixedFusedObserver::new(&q::FUSED_Q31, [lookout::Q31(0); 4]),
+        // Emitted by lookout-design from two_mass.toml's [fixed_point].
+        FixedFusedObserver::new(&f32::two_mass::FUSED_Q31, [lookout::Q31(0); 4]),
     );
     ok &= check(
         counter,

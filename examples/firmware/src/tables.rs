@@ -1,9 +1,9 @@
 //! The tables build.rs generated into OUT_DIR from the demo models: one
 //! module per scalar, each holding one module per model.
 
-/// f32 tables: what the firmware's float observers run on; a model with a
-/// `[fixed_point]` section (conveyor.toml) also gets its Q tables here
-/// (`PREDICTOR_Q31`, `FUSED_Q31`, `SCALES`), emitted by lookout-design.
+/// f32 tables: what the firmware's float observers run on; with the models'
+/// `[fixed_point]` sections they also hold the Q31 tables lookout-design
+/// emits (`PREDICTOR_Q31`, `FUSED_Q31`, `SCALES`).
 pub mod f32 {
     include!(concat!(env!("OUT_DIR"), "/conveyor_f32.rs"));
     include!(concat!(env!("OUT_DIR"), "/conveyor_kalman_f32.rs"));
@@ -18,10 +18,9 @@ pub mod f64 {
     include!(concat!(env!("OUT_DIR"), "/two_mass_f64.rs"));
 }
 
-/// Q31 and Q15 tables converted by the firmware's build.rs stand-in
-/// (`<model>_fixed::PREDICTOR_Q31`, `FUSED_Q31`, `PREDICTOR_Q15`,
-/// `FUSED_Q15`, `SCALES`), for the formats and models lookout-design does
-/// not emit here: Q15 of the conveyor, Q31 and Q15 of the two-mass drive.
+/// Q15 tables converted by the firmware's build.rs stand-in
+/// (`<model>_fixed::PREDICTOR_Q15`, `FUSED_Q15`, `SCALES`): lookout-design
+/// emits only the format a model file names (Q31 here).
 pub mod fixed {
     include!(concat!(env!("OUT_DIR"), "/conveyor_fixed.rs"));
     include!(concat!(env!("OUT_DIR"), "/two_mass_fixed.rs"));
