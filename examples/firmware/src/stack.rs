@@ -14,7 +14,7 @@ const DEPTH: usize = 4096;
 #[inline(never)]
 pub fn used_by(f: impl FnOnce()) -> usize {
     let sp = cortex_m::register::msp::read() as usize;
-    let bottom = (sp - DEPTH) as *mut u32;
+    let bottom = sp.saturating_sub(DEPTH) as *mut u32;
     let words = DEPTH / 4;
     for i in 0..words {
         // SAFETY: [sp − DEPTH, sp) is free stack below this frame: nothing
