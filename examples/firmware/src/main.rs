@@ -206,7 +206,7 @@ fn conveyor(counter: &cost::Counter) -> bool {
         FixedFusedObserver::new(&q::FUSED_Q15, [lookout::Q15(0); 2]),
     );
     // The Kalman design gates innovations beyond the 99.9 % chi-square
-    // quantile (about 3.3 standard deviations, a few milliradians here), so
+    // quantile (3.29 standard deviations of the innovation, 2.0 mrad here), so
     // its observer starts close to the truth (0.1 rad/s off in speed): a far
     // start would be gated for ever, which is the gate doing its job.
     let kalman = Scenario {
