@@ -35,7 +35,8 @@ criterion_group! {
     config = Criterion::default()
         .warm_up_time(Duration::from_millis(100))
         .measurement_time(Duration::from_millis(300))
-        .sample_size(20);
+        .sample_size(20)
+        .nresamples(10_000);
     targets = steps
 }
 criterion_main!(benches);
