@@ -3,7 +3,7 @@
 use super::RunResult;
 use super::metrics::Metrics;
 use super::options::SimOptions;
-use super::runtime::FormatRun;
+use super::runtime::{Format, FormatRun};
 use super::sweep::SweepSummary;
 use crate::error::CliError;
 use lookout_design::Design;
@@ -92,6 +92,17 @@ pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
             );
         }
         let _ = writeln!(s, "  verdict {}: {}", run.format.name(), verdict(run, m, t));
+        if let Some(fixed) = &design.fixed_point {
+            let designed = lookout_design::fixed_point::format_name(fixed.format);
+            let q = matches!(run.format, Format::Q31 | Format::Q15);
+            if q && !run.format.name().eq_ignore_ascii_case(designed) {
+                let _ = writeln!(
+                    s,
+                    "  note: the model's [fixed_point] asks for {designed}; these {} tables use its scales and were not checked for quantised stability by the design",
+                    run.format.name()
+                );
+            }
+        }
     }
     for (f, why) in &r.skipped {
         let _ = writeln!(s, "\n{}: not run: {why}", f.name());
