@@ -114,8 +114,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
 
     fn advance(&mut self, u: &[T; M]) {
         let plant = &self.tables.plant;
-        let mut next = [T::ZERO; N];
-        plant.a.mul_add_to(&self.filtered, &mut next);
+        let mut next = plant.a.mul(&self.filtered);
         plant.b.mul_add_to(u, &mut next);
         self.predicted = next;
         self.pending = None;

@@ -51,8 +51,37 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
         if !all_finite(u) {
             return Status::rejected_input(P);
         }
-        let t = self.tables;
         let present = usable(y, valid);
+        if self.tables.gate.is_some() || present != ChannelMask::all(P) {
+            return self.step_standing_in(u, y, present);
+        }
+        // The fast path: N·N + N·M + N·P multiply-adds and nothing else.
+        self.advance(u, y);
+        Status {
+            outcome: Outcome::Corrected,
+            used: present,
+            missing: ChannelMask::NONE,
+            saturations: 0,
+        }
+    }
+
+    /// x̂ ← F x̂ + G u + H y.
+    #[inline(always)]
+    fn advance(&mut self, u: &[T; M], y: &[T; P]) {
+        let t = self.tables;
+        let mut next = t.f.mul(&self.x);
+        t.g.mul_add_to(u, &mut next);
+        t.h.mul_add_to(y, &mut next);
+        self.x = next;
+    }
+
+    /// The step with a gate or missing channels: predicted readings stand in
+    /// for missing (or gated) ones. Kept out of line so the fast path keeps
+    /// its registers.
+    #[cold]
+    #[inline(never)]
+    fn step_standing_in(&mut self, u: &[T; M], y: &[T; P], present: ChannelMask) -> Status {
+        let t = self.tables;
         let mut status = Status {
             outcome: Outcome::Corrected,
             used: present,
@@ -89,7 +118,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
                 }
             }
             self.r = r;
-        } else if present != ChannelMask::all(P) {
+        } else {
             if present.is_empty() {
                 status.outcome = Outcome::PredictedOnly;
             }
@@ -99,11 +128,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
                 }
             }
         }
-        let mut next = [T::ZERO; N];
-        t.f.mul_add_to(&self.x, &mut next);
-        t.g.mul_add_to(u, &mut next);
-        t.h.mul_add_to(&y_used, &mut next);
-        self.x = next;
+        self.advance(u, &y_used);
         status
     }
 

@@ -90,6 +90,23 @@ impl<T: Float, const R: usize, const C: usize> Matrix<T, R, C> {
         }
     }
 
+    /// `self · v`: R·C multiplies and R·(C − 1) adds (the first column
+    /// starts the sum instead of a zero, which saves R additions of 0).
+    #[inline(always)]
+    pub(crate) fn mul(&self, v: &[T; C]) -> [T; R] {
+        let mut cols = self.cols.iter().zip(v.iter());
+        let mut acc = match cols.next() {
+            Some((col, &v0)) => col.map(|mij| mij * v0),
+            None => [T::zero(); R],
+        };
+        for (col, &vj) in cols {
+            for (a, &mij) in acc.iter_mut().zip(col.iter()) {
+                *a = *a + mij * vj;
+            }
+        }
+        acc
+    }
+
     /// `acc -= self · v`: R·C multiply-adds.
     #[inline(always)]
     pub(crate) fn mul_sub_from(&self, v: &[T; C], acc: &mut [T; R]) {

@@ -3,27 +3,27 @@
 use crate::gate::Gate;
 use crate::{ChannelMask, Matrix, Outcome, Real, Status};
 
+#[inline(always)]
 pub(crate) fn all_finite<T: Real, const K: usize>(v: &[T; K]) -> bool {
-    v.iter().all(|x| x.is_finite())
+    // No early exit: one branch for the whole vector.
+    v.iter().fold(true, |ok, x| ok & x.is_finite())
 }
 
-/// The requested channels whose reading is finite.
+/// The requested channels whose reading is finite (branch-free; P ≤ 32 is
+/// a compile-time bound of every observer).
+#[inline(always)]
 pub(crate) fn usable<T: Real, const P: usize>(y: &[T; P], requested: ChannelMask) -> ChannelMask {
-    y.iter()
-        .enumerate()
-        .fold(ChannelMask::NONE, |mask, (j, yj)| {
-            if requested.contains(j) && yj.is_finite() {
-                mask.with(j)
-            } else {
-                mask
-            }
-        })
+    let finite = y.iter().enumerate().fold(0u32, |bits, (j, yj)| {
+        bits | (u32::from(yj.is_finite()) << (j & 31))
+    });
+    ChannelMask::from_bits(finite & requested.bits() & ChannelMask::all(P).bits())
 }
 
 /// The innovation r = y − C x − D u on the channels that correct the estimate
 /// (zero on the others), and the status saying which those are.
 ///
 /// Costs P·(N + M) multiply-adds, plus the gate's when there is one.
+#[inline(always)]
 pub(crate) fn innovation<T: Real, const N: usize, const M: usize, const P: usize>(
     c: &Matrix<T, P, N>,
     d: &Matrix<T, P, M>,

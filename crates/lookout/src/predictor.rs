@@ -69,8 +69,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
             y,
             valid,
         );
-        let mut next = [T::ZERO; N];
-        plant.a.mul_add_to(&self.x, &mut next);
+        let mut next = plant.a.mul(&self.x);
         plant.b.mul_add_to(u, &mut next);
         if status.corrected() {
             self.tables.l.mul_add_to(&r, &mut next);
