@@ -400,6 +400,10 @@ fn bad_options_exit_2_with_a_clear_message() {
         "unknown signal kind",
     );
     fails_with(&["simulate", DEMO, "--sweep", "-1"], "--sweep");
+    fails_with(
+        &["simulate", DEMO, "--sweep", "2", "--csv", "x.csv"],
+        "--plot and --csv show one run",
+    );
 
     let wide = scratch("wide.csv");
     std::fs::write(&wide, "0.5\n0.5,1.0\n").unwrap();

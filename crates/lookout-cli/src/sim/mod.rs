@@ -112,6 +112,11 @@ pub fn simulate(design: &Design, args: &SimArgs) -> Result<String, CliError> {
     runtime::check_sizes(design)?;
     let opts = SimOptions::from_args(args, design.n(), design.m())?;
     if let Some(runs) = opts.sweep {
+        if args.plot.is_some() || args.csv.is_some() {
+            return Err(CliError::BadInput(
+                "--plot and --csv show one run: rerun the worst case the sweep reports with its --seed".into(),
+            ));
+        }
         let summary = sweep::run(design, &opts, runs)?;
         return Ok(if args.json {
             output::sweep_json(design, &opts, &summary)

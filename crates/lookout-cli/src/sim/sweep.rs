@@ -7,6 +7,7 @@ use crate::error::CliError;
 use lookout_design::Design;
 use rayon::prelude::*;
 use std::io::IsTerminal as _;
+use std::sync::Mutex;
 use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// How many worst cases are kept per format.
@@ -77,6 +78,7 @@ pub fn run_seed(seed: u64, i: usize) -> u64 {
 pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSummary, CliError> {
     let done = AtomicUsize::new(0);
     let show = std::io::stderr().is_terminal();
+    let shown = Mutex::new(0usize);
     // Each run is reduced to its digest at once: a run's time series are
     // not kept, so memory stays flat in N.
     let results: Vec<Result<RunResult, CliError>> = (0..runs)
@@ -85,10 +87,16 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
             let r = run_once(design, opts, run_seed(opts.seed, i)).map(digest);
             let k = done.fetch_add(1, Ordering::Relaxed) + 1;
             if show && (k * 50 / runs != (k - 1) * 50 / runs || k == runs) {
-                let bar = "#".repeat(k * 30 / runs);
-                eprint!("\rsweep [{bar:<30}] {k}/{runs}");
-                if k == runs {
-                    eprintln!();
+                // Threads finish out of order: only a count above the one
+                // shown is drawn, so the bar never steps back after 100 %.
+                let mut last = shown.lock().unwrap_or_else(|p| p.into_inner());
+                if k > *last {
+                    *last = k;
+                    let bar = "#".repeat(k * 30 / runs);
+                    eprint!("\rsweep [{bar:<30}] {k}/{runs}");
+                    if k == runs {
+                        eprintln!();
+                    }
                 }
             }
             r
