@@ -58,7 +58,8 @@ pub struct SimArgs {
     #[arg(long, default_value_t = 1)]
     pub seed: u64,
     /// Initial estimation error x − x̂, one value per estimated state
-    /// (comma separated, state units) or one for all.
+    /// (comma separated, state units) or one for all [default: 1 for every
+    /// state].
     #[arg(long, value_name = "E[,E..]", allow_hyphen_values = true)]
     pub initial_error: Option<String>,
     /// Input signal on every input: step:A[@K], sine:A:HZ, prbs:A[:HOLD] or

@@ -219,6 +219,8 @@ fn load_estimate_converges_to_a_step_load() {
         DEMO_LOAD,
         "--steps",
         "4000",
+        "--initial-error",
+        "0",
         "--disturbance",
         "0:-0.25@500",
         "--json",

@@ -117,7 +117,10 @@ impl SimOptions {
         };
         let initial_error = match &args.initial_error {
             Some(text) => per_state("initial-error", text, n)?,
-            None => vec![0.0; n],
+            // Without one, every state starts one unit off, so that a bare
+            // run shows the error dying out (zero would show nothing but
+            // rounding, measured against a zero-width band).
+            None => vec![1.0; n],
         };
         let tolerance = match &args.tolerance {
             Some(text) => {
