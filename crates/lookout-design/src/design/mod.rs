@@ -318,7 +318,8 @@ fn unobservable_report(
     cd: &DMatrix<f64>,
 ) -> Result<ObservabilityReport, NumericsError> {
     let o = numerics::observability::observability_matrix(ad, cd)?;
-    let singular_values: Vec<f64> = o.singular_values().iter().copied().collect();
+    // Capped iterations: nalgebra's plain singular_values() has no limit.
+    let singular_values = numerics::checks::singular_values("observability matrix", &o)?;
     let top = singular_values.iter().copied().fold(0.0, f64::max);
     let rank_tolerance = o.nrows().max(o.ncols()) as f64 * f64::EPSILON * top;
     Ok(ObservabilityReport {

@@ -20,7 +20,7 @@
 //! dimensions met on microcontrollers are small (n ≲ 30).
 
 mod balance;
-mod checks;
+pub(crate) mod checks;
 pub mod dare;
 pub mod discretise;
 pub mod eig;
