@@ -185,6 +185,40 @@ fn gate_from<Q: Fixed, const P: usize>(
     gate.map(|g| FixedGate::from_float(g, output)).transpose()
 }
 
+/// The three tables that add into the state rows — reading the state, the
+/// inputs and the outputs (or innovation) — quantised with one exponent per
+/// stacked row: [A B L] for the predictor, [F G H] for the fused form.
+#[allow(clippy::type_complexity)] // the three blocks and their shared exponents
+fn state_rows<Q: Fixed, const N: usize, const M: usize, const P: usize>(
+    x: (&Matrix<f64, N, N>, TableName),
+    u: (&Matrix<f64, N, M>, TableName),
+    y: (&Matrix<f64, N, P>, TableName),
+    s: &Scales<N, M, P>,
+) -> Result<(Matrix<Q, N, N>, Matrix<Q, N, M>, Matrix<Q, N, P>, [i8; N]), ConvertError> {
+    let bx = Block {
+        m: x.0,
+        input: &s.state,
+        name: x.1,
+    };
+    let bu = Block {
+        m: u.0,
+        input: &s.input,
+        name: u.1,
+    };
+    let by = Block {
+        m: y.0,
+        input: &s.output,
+        name: y.1,
+    };
+    let exp = row_exponents::<Q, N>(&[&bx, &bu, &by], &s.state)?;
+    Ok((
+        quantise_block(&bx, &s.state, &exp)?,
+        quantise_block(&bu, &s.state, &exp)?,
+        quantise_block(&by, &s.state, &exp)?,
+        exp,
+    ))
+}
+
 impl<Q: Fixed, const N: usize, const M: usize, const P: usize> FixedPredictorTables<Q, N, M, P> {
     /// Q tables for `tables` with the signal scales `scales`.
     pub fn from_float(
@@ -193,26 +227,16 @@ impl<Q: Fixed, const N: usize, const M: usize, const P: usize> FixedPredictorTab
     ) -> Result<Self, ConvertError> {
         let s = &scales;
         let p = &tables.plant;
-        let ba = Block {
-            m: &p.a,
-            input: &s.state,
-            name: TableName::A,
-        };
-        let bb = Block {
-            m: &p.b,
-            input: &s.input,
-            name: TableName::B,
-        };
-        let bl = Block {
-            m: &tables.l,
-            input: &s.output,
-            name: TableName::L,
-        };
-        let exp = row_exponents::<Q, N>(&[&ba, &bb, &bl], &s.state)?;
+        let (a, b, l, exp) = state_rows::<Q, N, M, P>(
+            (&p.a, TableName::A),
+            (&p.b, TableName::B),
+            (&tables.l, TableName::L),
+            s,
+        )?;
         Ok(Self {
-            a: quantise_block(&ba, &s.state, &exp)?,
-            b: quantise_block(&bb, &s.state, &exp)?,
-            l: quantise_block(&bl, &s.state, &exp)?,
+            a,
+            b,
+            l,
             exp,
             output: FixedOutputMap::from_float(&p.c, &p.d, s)?,
             gate: gate_from(tables.gate.as_ref(), &s.output)?,
@@ -300,26 +324,16 @@ impl<Q: Fixed, const N: usize, const M: usize, const P: usize> FixedFusedTables<
         scales: Scales<N, M, P>,
     ) -> Result<Self, ConvertError> {
         let s = &scales;
-        let bf = Block {
-            m: &tables.f,
-            input: &s.state,
-            name: TableName::F,
-        };
-        let bg = Block {
-            m: &tables.g,
-            input: &s.input,
-            name: TableName::G,
-        };
-        let bh = Block {
-            m: &tables.h,
-            input: &s.output,
-            name: TableName::H,
-        };
-        let exp = row_exponents::<Q, N>(&[&bf, &bg, &bh], &s.state)?;
+        let (f, g, h, exp) = state_rows::<Q, N, M, P>(
+            (&tables.f, TableName::F),
+            (&tables.g, TableName::G),
+            (&tables.h, TableName::H),
+            s,
+        )?;
         Ok(Self {
-            f: quantise_block(&bf, &s.state, &exp)?,
-            g: quantise_block(&bg, &s.state, &exp)?,
-            h: quantise_block(&bh, &s.state, &exp)?,
+            f,
+            g,
+            h,
             exp,
             output: FixedOutputMap::from_float(&tables.c, &tables.d, s)?,
             gate: gate_from(tables.gate.as_ref(), &s.output)?,
