@@ -96,12 +96,48 @@ fn fixed_point(fx: &lookout_design::fixed_point::FixedDesign) -> Value {
         "fused_spectral_radius": fx.fused_spectral_radius,
         "max_table_error": fx.max_table_error,
         "tables": tables,
+        "scales_from": match fx.signals.source {
+            lookout_design::model::ScaleSource::Plant => "plant",
+            lookout_design::model::ScaleSource::Readings => "readings",
+        },
+        "error_bound": fx.signals.error,
+        "format_accuracy": accuracy(&fx.accuracy),
         "bound_proof": {
             "terms": fx.proof.terms,
-            "tail": fx.proof.tail,
-            "contraction_power": fx.proof.power,
-            "contraction": fx.proof.contraction,
+            "strides": fx.proof.strides,
+            "final_norm": fx.proof.final_norm,
         },
+    })
+}
+
+/// `fixed_point.format_accuracy`: the predicted deviation of every form and
+/// number format from the exact observer (README, "Choosing the form and
+/// the number format").
+fn accuracy(a: &lookout_design::fixed_point::Accuracy) -> Value {
+    let rows: Vec<Value> = a
+        .deviations
+        .iter()
+        .map(|d| {
+            json!({
+                "form": d.form.name(),
+                "format": d.format.name(),
+                "refused": d.refused,
+                "usable": a.meets(d),
+                "spectral_radius": if d.refused.is_some() { Value::Null } else { json!(d.spectral_radius) },
+                "deviation": d.total,
+                "from_tables": d.from_tables,
+                "from_rounding": d.from_rounding,
+                "bias": d.bias,
+            })
+        })
+        .collect();
+    json!({
+        "range": a.range,
+        "limit": a.limit,
+        "limit_declared": a.limit_declared,
+        "transient_peak": a.transient_peak,
+        "transient_step": a.transient_step,
+        "combinations": rows,
     })
 }
 

@@ -276,14 +276,33 @@ fn fixed_point(s: &mut String, d: &Design, fx: &lookout_design::fixed_point::Fix
         format_name(fx.format)
     );
     let p = &fx.proof;
+    match &fx.signals.error {
+        None => {
+            let _ = writeln!(
+                s,
+                "  scales from the readings (scales_from = \"readings\"): proven peaks for |u| ≤ input_range, |y| ≤ output_range, from an estimate inside its driven bound:"
+            );
+        }
+        Some(err) => {
+            let e: Vec<String> = err.iter().map(|v| format!("{v:.3e}")).collect();
+            let _ = writeln!(
+                s,
+                "  scales from the plant (scales_from = \"plant\"): peak ≤ state_range + error bound [{}], the error driven by initial_error, output_noise and model_error through e⁺ = F e + w − H v;",
+                e.join(", ")
+            );
+            let _ = writeln!(
+                s,
+                "  valid while the plant stays inside state_range (the runtime counts saturations otherwise)"
+            );
+        }
+    }
     let _ = writeln!(
         s,
-        "  proven peaks for |u| ≤ input_range, |y| ≤ output_range, from an estimate inside its driven bound:"
-    );
-    let _ = writeln!(
-        s,
-        "  ℓ1 impulse response of x̂⁺ = F x̂ + G u + H y over {} terms, tail ≤ {:.2e} from ‖F^{}‖∞ = {:.4} < 1",
-        p.terms, p.tail, p.power, p.contraction
+        "  ℓ1 impulse response: {} terms one by one, then {} levels of 64 powers (last stride {:.3e} steps), ending at ‖F^t‖∞ = {:.1e}",
+        p.terms,
+        p.strides.len(),
+        p.strides.last().copied().unwrap_or(p.terms as f64),
+        p.final_norm
     );
     let _ = writeln!(
         s,
@@ -364,5 +383,51 @@ fn fixed_point(s: &mut String, d: &Design, fx: &lookout_design::fixed_point::Fix
         "  spectral radius            {:.9} quantised, {:.9} exact (fused tables: {:.9})",
         fx.spectral_radius, d.spectral_radius, fx.fused_spectral_radius
     );
+    let a = &fx.accuracy;
+    let _ = writeln!(
+        s,
+        "  transient growth           peak ‖Fᵏ‖∞ {:.3e} at step {} (states measured against their scales)",
+        a.transient_peak, a.transient_step
+    );
+    accuracy_table(s, &names, a);
     let _ = writeln!(s);
+}
+
+/// The form × format table of predicted deviations (design issue 12).
+fn accuracy_table(s: &mut String, names: &[String], a: &lookout_design::fixed_point::Accuracy) {
+    let _ = writeln!(
+        s,
+        "  predicted deviation from the exact observer, per state (rounded tables + per-step rounding; signals inside their scales):"
+    );
+    let mut head = format!("  {:<10}{:<7}", "form", "format");
+    for name in names {
+        let _ = write!(head, "{name:>12}");
+    }
+    let _ = writeln!(s, "{head}  usable");
+    let mut limit = format!(
+        "  {:<17}",
+        if a.limit_declared {
+            "deviation_limit"
+        } else {
+            "limit (1 %)"
+        }
+    );
+    for l in &a.limit {
+        let _ = write!(limit, "{l:>12.3e}");
+    }
+    let _ = writeln!(s, "{limit}");
+    for d in &a.deviations {
+        let mut row = format!("  {:<10}{:<7}", d.form.name(), d.format.name());
+        match &d.refused {
+            Some(why) => {
+                let _ = writeln!(s, "{row}cannot run: {why}");
+            }
+            None => {
+                for v in &d.total {
+                    let _ = write!(row, "{v:>12.3e}");
+                }
+                let _ = writeln!(s, "{row}  {}", if a.meets(d) { "yes" } else { "no" });
+            }
+        }
+    }
 }

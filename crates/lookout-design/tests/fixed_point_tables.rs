@@ -21,6 +21,11 @@ fn spec(format: FixedFormat) -> FixedPointSpec {
         state_range: None,
         margin_bits: 1,
         stability_margin: 0.01,
+        scales_from: lookout_design::model::ScaleSource::Readings,
+        initial_error: None,
+        output_noise: None,
+        model_error: None,
+        deviation_limit: None,
     }
 }
 
@@ -91,7 +96,7 @@ proptest! {
         let ad = &f + &h * &c;
         let bd = &g + &h * &d;
         let rho = lookout_design::numerics::spectral_radius("F", &f).unwrap();
-        let tables = FloatTables { form: Form::Predictor, ad: &ad, bd: &bd, cd: &c, dd: &d, gain: Some(&h), f: &f, g: &g, h: &h, spectral_radius: rho };
+        let tables = FloatTables { form: Form::Predictor, ad: &ad, bd: &bd, cd: &c, dd: &d, gain: Some(&h), f: &f, g: &g, h: &h, spectral_radius: rho, state_names: &[] };
         let fx = fixed_point::design(&tables, &spec).unwrap();
 
         // The driven bound from zero, by the same routine.

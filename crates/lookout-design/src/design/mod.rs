@@ -265,7 +265,9 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         model,
     };
     if let Some(spec) = &design.model.fixed_point {
+        let state_names = design.state_names();
         let tables = crate::fixed_point::FloatTables {
+            state_names: &state_names,
             form: design.model.observer.form,
             ad: &design.ad,
             bd: &design.bd,

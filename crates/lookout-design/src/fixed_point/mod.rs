@@ -29,15 +29,22 @@
 //! design is refused when the quantised spectral radius is ≥ 1 or exceeds
 //! the exact one by more than `stability_margin`.
 
+pub mod accuracy;
 pub mod bounds;
+pub mod deviation;
 mod quantise;
+pub mod scales;
 
+pub use accuracy::Accuracy;
 pub use bounds::{BoundError, PeakBound};
+pub use deviation::{Deviation, FormKind, NumberKind};
 pub use quantise::QuantisedTable;
+pub use scales::SignalBounds;
 
-use crate::model::{FixedFormat, FixedPointSpec, Form};
+use crate::model::{FixedFormat, FixedPointSpec, Form, ScaleSource};
 use crate::numerics;
-use nalgebra::{Complex, DMatrix, DVector};
+use deviation::Stored;
+use nalgebra::{Complex, DMatrix};
 use quantise::{Block, RowTooLarge, stacked};
 
 /// The fixed-point part of a design.
@@ -56,8 +63,11 @@ pub struct FixedDesign {
     pub state_bounds: Vec<f64>,
     /// Proven peak of each innovation (and stand-in reading).
     pub innovation_bounds: Vec<f64>,
-    /// How the state bound was proven (the fused recursion).
+    /// How the state bound was proven: the impulse-response sum of the
+    /// estimate (readings proof) or of the estimation error (plant proof).
     pub proof: PeakBound,
+    /// The signal bounds behind the scales and which proof gave them.
+    pub signals: SignalBounds,
     /// The form's tables in Q form: a, b, l (predictor) or a, b, k
     /// (current), then c, d; empty for a held observer.
     pub form_tables: Vec<QuantisedTable>,
@@ -72,6 +82,9 @@ pub struct FixedDesign {
     pub fused_spectral_radius: f64,
     /// Largest |exact − dequantised| entry over every table.
     pub max_table_error: f64,
+    /// Predicted deviation of every form and format from the exact
+    /// observer, and the transient growth of the error dynamics.
+    pub accuracy: Accuracy,
     /// Non-fatal findings, each tied to a model key.
     pub warnings: Vec<(String, String)>,
 }
@@ -107,6 +120,8 @@ pub struct FloatTables<'a> {
     pub h: &'a DMatrix<f64>,
     /// Spectral radius of the exact F.
     pub spectral_radius: f64,
+    /// Name of every state, for messages.
+    pub state_names: &'a [String],
 }
 
 /// The smallest s with `value` < 2^s (`value` ≥ 0, finite), clamped to i8.
@@ -120,106 +135,27 @@ fn exponent_above(value: f64) -> i8 {
     i8::try_from(s.clamp(-31, 100)).unwrap_or(100)
 }
 
-fn abs_times(m: &DMatrix<f64>, v: &[f64]) -> Vec<f64> {
-    m.row_iter()
-        .map(|r| r.iter().zip(v).map(|(a, b)| a.abs() * b).sum())
-        .collect()
-}
+/// The stacked tables of `t` quantised in `format` at the given scales: the
+/// form's (a, b, l or a, b, k, then c, d; empty for a held observer) and
+/// the fused (f, g, h, c, d).
+pub(crate) type TablePair = (Vec<QuantisedTable>, Vec<QuantisedTable>);
 
-/// Designs the fixed-point tables of `t` for `spec`.
-pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign, FixedError> {
-    let n = t.f.nrows();
-    let margin = 2f64.powi(i32::try_from(spec.margin_bits).unwrap_or(0));
-    let mut warnings = Vec::new();
-
-    // The fused recursion's peak: first driven from zero, then from an
-    // initial estimate anywhere inside that driven bound.
-    let mut e = DMatrix::zeros(n, t.g.ncols() + t.h.ncols());
-    e.columns_mut(0, t.g.ncols()).copy_from(t.g);
-    e.columns_mut(t.g.ncols(), t.h.ncols()).copy_from(t.h);
-    let w = DVector::from_iterator(
-        e.ncols(),
-        spec.input_range.iter().chain(&spec.output_range).copied(),
-    );
-    let unprovable = |err: BoundError| FixedError {
-        key: "fixed_point",
-        message: match err {
-            BoundError::NoContraction { best } => format!(
-                "cannot prove a bound on the estimate: no power of F up to 4096 contracts in the ∞-norm (best {best:.4})"
-            ),
-            BoundError::NotFinite => {
-                "cannot prove a bound on the estimate: the impulse-response sum overflows".into()
-            }
-        },
-    };
-    let driven = bounds::peak(t.f, &e, &w, &DVector::zeros(n)).map_err(unprovable)?;
-    let proof =
-        bounds::peak(t.f, &e, &w, &DVector::from_vec(driven.driven.clone())).map_err(unprovable)?;
-    let x_peak = proof.peak.clone();
-
-    let mut u_w = spec.input_range.clone();
-    u_w.truncate(t.dd.ncols());
-    let innovation: Vec<f64> = abs_times(t.cd, &x_peak)
-        .iter()
-        .zip(abs_times(t.dd, &u_w))
-        .zip(&spec.output_range)
-        .map(|((cx, du), y)| y + cx + du)
-        .collect();
-    let state_bounds: Vec<f64> = match (t.form, t.gain) {
-        (Form::Current, Some(k)) => x_peak
-            .iter()
-            .zip(abs_times(k, &innovation))
-            .map(|(x, kr)| x + kr)
-            .collect(),
-        _ => x_peak,
-    };
-
-    let state_exponents: Vec<i8> = state_bounds
-        .iter()
-        .enumerate()
-        .map(|(i, &b)| {
-            match spec.state_range.as_ref().and_then(|r| r.get(i)) {
-                Some(&range) => {
-                    if range < b {
-                        warnings.push((
-                            format!("fixed_point.state_range[{i}]"),
-                            format!("{range} is below the proven peak {b:.6e} of this state: its estimate can saturate"),
-                        ));
-                    }
-                    exponent_above(range * margin)
-                }
-                None => exponent_above(b * margin),
-            }
-        })
-        .collect();
-    let input_exponents: Vec<i8> = spec
-        .input_range
-        .iter()
-        .map(|&u| exponent_above(u))
-        .collect();
-    let output_exponents: Vec<i8> = spec
-        .output_range
-        .iter()
-        .zip(&innovation)
-        .map(|(&y, &r)| exponent_above(y).max(exponent_above(r * margin)))
-        .collect();
-
+fn quantise_tables(
+    t: &FloatTables<'_>,
+    format: FixedFormat,
+    (sx, su, sy): (&[i8], &[i8], &[i8]),
+) -> Result<TablePair, FixedError> {
     let fail = |e: RowTooLarge| FixedError {
         key: "fixed_point",
         message: format!(
             "table {} row {} cannot be stored in {}: normalised row sum {:.4e}",
             e.table,
             e.row,
-            format_name(spec.format),
+            format_name(format),
             e.sum
         ),
     };
-    let (sx, su, sy) = (
-        &state_exponents[..],
-        &input_exponents[..],
-        &output_exponents[..],
-    );
-    let quantise = |blocks: &[Block<'_>], out: &[i8]| match spec.format {
+    let quantise = |blocks: &[Block<'_>], out: &[i8]| match format {
         FixedFormat::Q15 => stacked::<lookout::Q15>(blocks, out),
         FixedFormat::Q31 => stacked::<lookout::Q31>(blocks, out),
     };
@@ -235,7 +171,7 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
     )
     .map_err(fail)?;
     fused_tables.extend(output_map.iter().cloned());
-    let form_tables = match (t.form, t.gain) {
+    let mut form_tables = match (t.form, t.gain) {
         (_, None) => Vec::new(),
         (Form::Predictor, Some(l)) => quantise(
             &[
@@ -253,38 +189,89 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
             tables
         }
     };
-    let mut form_tables = form_tables;
     if !form_tables.is_empty() {
         form_tables.extend(output_map.iter().cloned());
     }
+    Ok((form_tables, fused_tables))
+}
 
-    // Quantised error dynamics.
-    let get = |tables: &[QuantisedTable], name: &str| {
-        tables
-            .iter()
-            .find(|q| q.name == name)
-            .map(|q| q.dequantised.clone())
-    };
-    let fq = get(&fused_tables, "f").unwrap_or_else(|| t.f.clone());
-    let form_error = match (get(&form_tables, "a"), get(&form_tables, "c")) {
-        (Some(a), Some(c)) => match (t.form, get(&form_tables, "l"), get(&form_tables, "k")) {
-            (Form::Predictor, Some(l), _) => Some(&a - &l * &c),
-            (Form::Current, _, Some(k)) => Some(&a - &a * &k * &c),
-            _ => None,
-        },
-        _ => None,
-    };
+/// Eigenvalues of the stored error matrices: the form's (the fused one's
+/// for a held observer) and the fused one's.
+fn quantised_poles(
+    t: &FloatTables<'_>,
+    form_tables: &[QuantisedTable],
+    fused_tables: &[QuantisedTable],
+) -> Result<(Vec<Complex<f64>>, Vec<Complex<f64>>), FixedError> {
     let eig_fail = |e: numerics::NumericsError| FixedError {
         key: "fixed_point",
         message: format!("eigenvalues of the quantised error matrix: {e}"),
     };
+    let fq = Stored::from_quantised(FormKind::Fused, fused_tables)
+        .map_or_else(|| t.f.clone(), |s| s.error_matrix());
     let fused_poles = numerics::eigenvalues("quantised F", &fq).map_err(eig_fail)?;
-    let fused_spectral_radius = fused_poles.iter().map(|z| z.norm()).fold(0.0, f64::max);
-    let error_poles = match &form_error {
-        Some(m) => numerics::eigenvalues("quantised error matrix", m).map_err(eig_fail)?,
+    let form = match t.form {
+        Form::Predictor => FormKind::Predictor,
+        Form::Current => FormKind::Current,
+    };
+    let error_poles = match Stored::from_quantised(form, form_tables) {
+        Some(s) => {
+            numerics::eigenvalues("quantised error matrix", &s.error_matrix()).map_err(eig_fail)?
+        }
         None => fused_poles.clone(),
     };
-    let spectral_radius = error_poles.iter().map(|z| z.norm()).fold(0.0, f64::max);
+    Ok((error_poles, fused_poles))
+}
+
+fn radius(poles: &[Complex<f64>]) -> f64 {
+    poles.iter().map(|z| z.norm()).fold(0.0, f64::max)
+}
+
+/// Designs the fixed-point tables of `t` for `spec`.
+pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign, FixedError> {
+    let margin = 2f64.powi(i32::try_from(spec.margin_bits).unwrap_or(0));
+    let mut warnings = Vec::new();
+    let signals = scales::signal_bounds(t, spec)?;
+    let declared = match signals.source {
+        ScaleSource::Readings => spec.state_range.as_ref(),
+        ScaleSource::Plant => None,
+    };
+    let state_exponents: Vec<i8> = signals
+        .state
+        .iter()
+        .enumerate()
+        .map(|(i, &b)| match declared.and_then(|r| r.get(i)) {
+            Some(&range) => {
+                if range < b {
+                    warnings.push((
+                        format!("fixed_point.state_range[{i}]"),
+                        format!("{range} is below the proven peak {b:.6e} of this state: its estimate can saturate"),
+                    ));
+                }
+                exponent_above(range * margin)
+            }
+            None => exponent_above(b * margin),
+        })
+        .collect();
+    let input_exponents: Vec<i8> = spec
+        .input_range
+        .iter()
+        .map(|&u| exponent_above(u))
+        .collect();
+    let output_exponents: Vec<i8> = spec
+        .output_range
+        .iter()
+        .zip(&signals.innovation)
+        .map(|(&y, &r)| exponent_above(y).max(exponent_above(r * margin)))
+        .collect();
+    let exps = (
+        &state_exponents[..],
+        &input_exponents[..],
+        &output_exponents[..],
+    );
+    let (form_tables, fused_tables) = quantise_tables(t, spec.format, exps)?;
+    let (error_poles, fused_poles) = quantised_poles(t, &form_tables, &fused_tables)?;
+    let spectral_radius = radius(&error_poles);
+    let fused_spectral_radius = radius(&fused_poles);
     for (what, rho) in [
         ("the form's", spectral_radius),
         ("the fused", fused_spectral_radius),
@@ -308,6 +295,26 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
             });
         }
     }
+    let other = match spec.format {
+        FixedFormat::Q31 => FixedFormat::Q15,
+        FixedFormat::Q15 => FixedFormat::Q31,
+    };
+    let (q31, q15) = {
+        let mine = Ok((form_tables.clone(), fused_tables.clone()));
+        let theirs = quantise_tables(t, other, exps);
+        match spec.format {
+            FixedFormat::Q31 => (mine, theirs),
+            FixedFormat::Q15 => (theirs, mine),
+        }
+    };
+    let accuracy = accuracy::analyse(t, spec, &signals, exps, (&q31, &q15))?;
+    warnings.extend(accuracy::judge(t, spec, &accuracy)?);
+    warnings.extend(accuracy::table_losses(
+        t,
+        spec,
+        &accuracy,
+        form_tables.iter().chain(&fused_tables),
+    ));
     let max_table_error = form_tables
         .iter()
         .chain(&fused_tables)
@@ -318,15 +325,17 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
         state_exponents,
         input_exponents,
         output_exponents,
-        state_bounds,
-        innovation_bounds: innovation,
-        proof,
+        state_bounds: signals.state.clone(),
+        innovation_bounds: signals.innovation.clone(),
+        proof: signals.proof.clone(),
+        signals,
         form_tables,
         fused_tables,
         error_poles,
         spectral_radius,
         fused_spectral_radius,
         max_table_error,
+        accuracy,
         warnings,
     })
 }

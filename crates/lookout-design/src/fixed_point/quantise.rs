@@ -23,6 +23,9 @@ pub struct QuantisedTable {
     pub max_abs_error: f64,
     /// `max_abs_error` relative to `largest` (0 for an all-zero table).
     pub max_rel_error: f64,
+    /// The entry that lost the largest share of its own value to rounding:
+    /// row, column, |exact − stored| / |exact| (`None` for an all-zero table).
+    pub worst_loss: Option<(usize, usize, f64)>,
 }
 
 /// A table to quantise: its name, its entries, and the scale exponents of
@@ -111,6 +114,19 @@ pub(crate) fn stacked<Q: Fixed>(
                         normalised(lookout::dequantise_real(stored, e), s_out, s_in);
                 }
             }
+            let mut worst_loss: Option<(usize, usize, f64)> = None;
+            for ((i, j), &v) in
+                b.m.iter()
+                    .enumerate()
+                    .map(|(k, v)| ((k % rows, k / rows), v))
+            {
+                if v != 0.0 {
+                    let loss = (v - dequantised[(i, j)]).abs() / v.abs();
+                    if worst_loss.is_none_or(|(_, _, w)| loss > w) {
+                        worst_loss = Some((i, j, loss));
+                    }
+                }
+            }
             let largest = b.m.amax();
             let max_abs_error = (b.m - &dequantised).amax();
             Ok(QuantisedTable {
@@ -125,6 +141,7 @@ pub(crate) fn stacked<Q: Fixed>(
                 } else {
                     0.0
                 },
+                worst_loss,
             })
         })
         .collect()

@@ -3,7 +3,27 @@
 
 use super::error::{ModelError, ModelErrorKind, ModelWarning};
 use super::plant::Plant;
-use super::reader::{Dim, Table};
+use super::reader::{Dim, Node, Table};
+
+/// A list of finite numbers of the given length, each ≥ 0 (a bound).
+fn non_negative(node: &Node<'_, '_>, len: Dim<'_>) -> Result<Vec<f64>, ModelError> {
+    let items = node.elements()?;
+    node.check_len(&items, len)?;
+    items
+        .iter()
+        .map(|item| {
+            let v = item.number()?;
+            if v >= 0.0 {
+                Ok(v)
+            } else {
+                Err(item.fail(
+                    ModelErrorKind::OutOfRange,
+                    format!("{v} is negative; a bound is a magnitude, ≥ 0"),
+                ))
+            }
+        })
+        .collect()
+}
 
 /// Keys allowed in `[fixed_point]`.
 pub(crate) const KEYS: &[&str] = &[
@@ -13,6 +33,11 @@ pub(crate) const KEYS: &[&str] = &[
     "state_range",
     "margin_bits",
     "stability_margin",
+    "scales_from",
+    "initial_error",
+    "output_noise",
+    "model_error",
+    "deviation_limit",
 ];
 
 /// Headroom bits when `margin_bits` is not given.
@@ -40,6 +65,17 @@ impl FixedFormat {
     }
 }
 
+/// What the signal scales are proven from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ScaleSource {
+    /// Every reading arbitrary within `output_range`: the estimate's peak
+    /// is the ℓ1 response of the observer to its input and output ranges.
+    Readings,
+    /// The plant stays inside `state_range`: the estimate is the true state
+    /// minus the estimation error, bounded through the error dynamics.
+    Plant,
+}
+
 /// Fixed-point request: format, ranges and safety margins.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FixedPointSpec {
@@ -59,6 +95,22 @@ pub struct FixedPointSpec {
     /// (absolute, e.g. 0.01 allows 0.95 → 0.96); a spectral radius ≥ 1 is
     /// always refused.
     pub stability_margin: f64,
+    /// The proof the scales rest on (`scales_from`; the plant's when
+    /// `state_range` is given, the readings' otherwise).
+    pub scales_from: ScaleSource,
+    /// Largest |x_i − x̂_i| at start, one per state (`initial_error`; for
+    /// the plant proof, default `state_range`: a start anywhere in range).
+    pub initial_error: Option<Vec<f64>>,
+    /// Largest |v_j| of the measurement noise, one per output
+    /// (`output_noise`, default 0).
+    pub output_noise: Option<Vec<f64>>,
+    /// Largest |w_i| of the model's error per step, one per state
+    /// (`model_error`, default 0): x⁺ = A x + B u + w.
+    pub model_error: Option<Vec<f64>>,
+    /// Largest acceptable deviation of the run observer from the exact one,
+    /// one per state in state units (`deviation_limit`); `None` warns above
+    /// 1 % of each state's scale instead.
+    pub deviation_limit: Option<Vec<f64>>,
 }
 
 /// Reads and checks `[fixed_point]` for `plant`.
@@ -138,7 +190,73 @@ pub(crate) fn read(
         None => DEFAULT_STABILITY_MARGIN,
     };
 
+    let per_state = |key: &str| {
+        table
+            .get(key)
+            .map(|node| {
+                non_negative(
+                    &node,
+                    Dim {
+                        count: plant.n(),
+                        per: "state",
+                        symbol: "n",
+                        from: "plant.a",
+                    },
+                )
+            })
+            .transpose()
+    };
+    let initial_error = per_state("initial_error")?;
+    let model_error = per_state("model_error")?;
+    let deviation_limit = table
+        .get("deviation_limit")
+        .map(|node| {
+            node.positive_numbers(Dim {
+                count: plant.n(),
+                per: "state",
+                symbol: "n",
+                from: "plant.a",
+            })
+        })
+        .transpose()?;
+    let output_noise = table
+        .get("output_noise")
+        .map(|node| {
+            non_negative(
+                &node,
+                Dim {
+                    count: plant.p(),
+                    per: "output",
+                    symbol: "p",
+                    from: "plant.c",
+                },
+            )
+        })
+        .transpose()?;
+    let scales_from = match table.get("scales_from") {
+        Some(node) => {
+            let source = node.choice(&[
+                ("plant", ScaleSource::Plant),
+                ("readings", ScaleSource::Readings),
+            ])?;
+            if source == ScaleSource::Plant && state_range.is_none() {
+                return Err(node.fail(
+                    ModelErrorKind::OutOfRange,
+                    "\"plant\" needs state_range, the physical range of each state".to_string(),
+                ));
+            }
+            source
+        }
+        None if state_range.is_some() => ScaleSource::Plant,
+        None => ScaleSource::Readings,
+    };
+
     Ok(FixedPointSpec {
+        scales_from,
+        initial_error,
+        output_noise,
+        model_error,
+        deviation_limit,
         format,
         input_range,
         output_range,

@@ -109,7 +109,9 @@ use std::path::Path;
 
 pub use disturbances::{Disturbances, Entry, InputDisturbance, OutputBias, Shape};
 pub use error::{Location, ModelError, ModelErrorKind, ModelWarning};
-pub use fixed_point::{DEFAULT_MARGIN_BITS, DEFAULT_STABILITY_MARGIN, FixedFormat, FixedPointSpec};
+pub use fixed_point::{
+    DEFAULT_MARGIN_BITS, DEFAULT_STABILITY_MARGIN, FixedFormat, FixedPointSpec, ScaleSource,
+};
 pub use kalman::{KalmanSpec, NoiseDomain};
 pub use observer::{Form, GainMethod, GainSource, Gate, ObserverSpec};
 pub use plant::{Domain, Plant};
