@@ -13,6 +13,7 @@ pub mod options;
 pub mod output;
 pub mod plant;
 pub mod plot;
+pub mod predicted;
 pub mod rng;
 pub mod runtime;
 pub mod signal;

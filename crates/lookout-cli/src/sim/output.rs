@@ -92,6 +92,9 @@ pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
             );
         }
         let _ = writeln!(s, "  verdict {}: {}", run.format.name(), verdict(run, m, t));
+        if let Some(c) = super::predicted::check(design, r, run, m) {
+            let _ = writeln!(s, "  {}", c.line());
+        }
         if let Some(fixed) = &design.fixed_point {
             let designed = lookout_design::fixed_point::format_name(fixed.format);
             let q = matches!(run.format, Format::Q31 | Format::Q15);
@@ -119,8 +122,12 @@ pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
         .formats
         .iter()
         .map(|(run, m)| {
+            let predicted = super::predicted::check(design, r, run, m);
             json!({
                 "format": run.format.name(),
+                "predicted_deviation_bound": predicted.as_ref().map(|c| c.bound.clone()),
+                "prediction_covers_run": predicted.as_ref().map(|c| c.not_covered.is_none()),
+                "exceeds_prediction": predicted.as_ref().map(|c| c.exceeded),
                 "rms_error": m.rms_error,
                 "final_error": m.final_error,
                 "settling_step": m.settling_step,

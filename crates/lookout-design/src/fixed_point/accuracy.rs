@@ -63,13 +63,19 @@ impl Accuracy {
     }
 }
 
+/// The form the runtime runs for a design with (or without, for a held
+/// observer) an innovation gain.
+pub fn model_form_of(has_gain: bool, form: Form) -> FormKind {
+    match (form, has_gain) {
+        (_, false) => FormKind::Fused,
+        (Form::Predictor, true) => FormKind::Predictor,
+        (Form::Current, true) => FormKind::Current,
+    }
+}
+
 /// The form the model asks for (fused for a held observer).
 pub fn model_form(t: &FloatTables<'_>) -> FormKind {
-    match (t.form, t.gain) {
-        (_, None) => FormKind::Fused,
-        (Form::Predictor, Some(_)) => FormKind::Predictor,
-        (Form::Current, Some(_)) => FormKind::Current,
-    }
+    model_form_of(t.gain.is_some(), t.form)
 }
 
 pub(super) fn number_kind(format: FixedFormat) -> NumberKind {

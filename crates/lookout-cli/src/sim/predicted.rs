@@ -1,0 +1,98 @@
+//! The design's predicted deviation from the f64 observer beside the
+//! measured one: a measured deviation above the prediction, on a run the
+//! prediction covers, is a bug in the analysis (design issue 12).
+
+use super::RunResult;
+use super::metrics::Metrics;
+use super::runtime::{Format, FormatRun};
+use lookout_design::Design;
+use lookout_design::fixed_point::{FormKind, NumberKind, accuracy::model_form_of};
+
+/// The prediction for one format's run.
+#[derive(Debug, Clone)]
+pub struct Check {
+    /// Bound on |x̂ − x̂_f64| per state: this format's deviation from the
+    /// exact observer plus the f64 observer's.
+    pub bound: Vec<f64>,
+    /// Why the bound does not cover this run (signals outside their scales,
+    /// dropped or gated readings), if so.
+    pub not_covered: Option<String>,
+    /// Measured above the bound on a covered run.
+    pub exceeded: bool,
+}
+
+fn kind(format: Format) -> NumberKind {
+    match format {
+        Format::F64 => NumberKind::F64,
+        Format::F32 => NumberKind::F32,
+        Format::Q31 => NumberKind::Q31,
+        Format::Q15 => NumberKind::Q15,
+    }
+}
+
+fn outside(values: &[f64], width: usize, exps: &[i8]) -> bool {
+    values.chunks(width.max(1)).any(|row| {
+        row.iter()
+            .zip(exps)
+            .any(|(v, &e)| v.abs() >= 2f64.powi(i32::from(e)))
+    })
+}
+
+/// The check of `run` (`None` for f64 or without `[fixed_point]`).
+pub fn check(design: &Design, r: &RunResult, run: &FormatRun, m: &Metrics) -> Option<Check> {
+    let fx = design.fixed_point.as_ref()?;
+    if run.format == Format::F64 {
+        return None;
+    }
+    let form: FormKind = model_form_of(design.gain.is_some(), design.model.observer.form);
+    let this = fx.accuracy.get(form, kind(run.format))?;
+    let reference = fx.accuracy.get(form, NumberKind::F64)?;
+    if this.refused.is_some() || reference.refused.is_some() {
+        return None;
+    }
+    let bound: Vec<f64> = this
+        .total
+        .iter()
+        .zip(&reference.total)
+        .map(|(a, b)| a + b)
+        .collect();
+    let f64_run = r.formats.first().map(|(f, _)| f);
+    let not_covered = if run.saturations > 0 {
+        Some("the run saturated".to_string())
+    } else if r.traj.dropped > 0 || run.gated > 0 {
+        Some("readings were dropped or gated (the estimate then runs open loop)".to_string())
+    } else if outside(&r.traj.u, r.traj.m, &fx.input_exponents)
+        || outside(&r.traj.y, r.traj.p, &fx.output_exponents)
+        || f64_run.is_some_and(|f| outside(&f.estimate, r.traj.n, &fx.state_exponents))
+    {
+        Some("a signal left its scale".to_string())
+    } else {
+        None
+    };
+    let exceeded = not_covered.is_none()
+        && m.max_deviation_from_f64
+            .iter()
+            .zip(&bound)
+            .any(|(d, b)| d > b);
+    Some(Check {
+        bound,
+        not_covered,
+        exceeded,
+    })
+}
+
+impl Check {
+    /// One report line.
+    pub fn line(&self) -> String {
+        let b: Vec<String> = self.bound.iter().map(|v| format!("{v:.3e}")).collect();
+        let verdict = match (&self.not_covered, self.exceeded) {
+            (Some(why), _) => format!("not covered: {why}"),
+            (None, true) => "MEASURED ABOVE PREDICTION: a bug in the design's analysis".to_string(),
+            (None, false) => "measured within prediction".to_string(),
+        };
+        format!(
+            "predicted max |x̂−x̂64| (design) [{}]: {verdict}",
+            b.join(", ")
+        )
+    }
+}
