@@ -298,7 +298,7 @@ fn fixed_point(s: &mut String, d: &Design, fx: &lookout_design::fixed_point::Fix
     }
     let _ = writeln!(
         s,
-        "  ℓ1 impulse response: {} terms one by one, then {} levels of 64 powers (last stride {:.3e} steps), ending at ‖F^t‖∞ = {:.1e}",
+        "  ℓ1 impulse response: {} terms one by one, then level(s) of 64 powers: {} (last stride {:.3e} steps), ending at ‖F^t‖∞ = {:.1e}",
         p.terms,
         p.strides.len(),
         p.strides.last().copied().unwrap_or(p.terms as f64),

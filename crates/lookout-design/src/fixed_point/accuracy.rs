@@ -17,7 +17,7 @@ pub const DEFAULT_SHARE: f64 = 0.01;
 pub const ENTRY_LOSS_SHARE: f64 = 0.01;
 /// Peak ‖Fᵏ‖∞ (states measured against their scales) from which the error
 /// dynamics are called strongly non-normal.
-pub const TRANSIENT_WARNING: f64 = 10.0;
+pub const TRANSIENT_WARNING: f64 = 100.0;
 
 /// Predicted deviations of every form and format, and what they are judged
 /// against.

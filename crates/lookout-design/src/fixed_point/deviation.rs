@@ -321,7 +321,7 @@ pub(crate) fn predict(
     let (ft, gt, ht) = stored.fused();
     let n = ft.nrows();
     let rho = crate::numerics::spectral_radius("stored error matrix", &ft).unwrap_or(f64::NAN);
-    if !(rho < 1.0) {
+    if rho.is_nan() || rho >= 1.0 {
         return refused(
             form,
             format,

@@ -201,7 +201,7 @@ fn quantised_poles(
     t: &FloatTables<'_>,
     form_tables: &[QuantisedTable],
     fused_tables: &[QuantisedTable],
-) -> Result<(Vec<Complex<f64>>, Vec<Complex<f64>>), FixedError> {
+) -> Result<[Vec<Complex<f64>>; 2], FixedError> {
     let eig_fail = |e: numerics::NumericsError| FixedError {
         key: "fixed_point",
         message: format!("eigenvalues of the quantised error matrix: {e}"),
@@ -219,7 +219,7 @@ fn quantised_poles(
         }
         None => fused_poles.clone(),
     };
-    Ok((error_poles, fused_poles))
+    Ok([error_poles, fused_poles])
 }
 
 fn radius(poles: &[Complex<f64>]) -> f64 {
@@ -269,7 +269,7 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
         &output_exponents[..],
     );
     let (form_tables, fused_tables) = quantise_tables(t, spec.format, exps)?;
-    let (error_poles, fused_poles) = quantised_poles(t, &form_tables, &fused_tables)?;
+    let [error_poles, fused_poles] = quantised_poles(t, &form_tables, &fused_tables)?;
     let spectral_radius = radius(&error_poles);
     let fused_spectral_radius = radius(&fused_poles);
     for (what, rho) in [

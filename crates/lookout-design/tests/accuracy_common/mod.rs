@@ -167,11 +167,7 @@ pub struct Measured {
 }
 
 /// Every runnable combination of `fx`'s design `m` over `record`.
-pub fn measure<const N: usize>(
-    fx: &FixedDesign,
-    m: &Mats,
-    record: &[(f64, f64)],
-) -> Vec<Measured> {
+pub fn measure<const N: usize>(fx: &FixedDesign, m: &Mats, record: &[(f64, f64)]) -> Vec<Measured> {
     let arr = |v: &[i8]| -> [i8; N] { std::array::from_fn(|i| v[i]) };
     let s = Scales::<N, 1, 1> {
         state: arr(&fx.state_exponents),
@@ -188,7 +184,10 @@ pub fn measure<const N: usize>(
     }
     let mut out = Vec::new();
     for (format, traces) in &runs {
-        for (k, form) in [FormKind::Predictor, FormKind::Fused].into_iter().enumerate() {
+        for (k, form) in [FormKind::Predictor, FormKind::Fused]
+            .into_iter()
+            .enumerate()
+        {
             let (Some(d), Some(d64)) = (
                 fx.accuracy.get(form, *format),
                 fx.accuracy.get(form, NumberKind::F64),
