@@ -40,7 +40,11 @@ fn spec(input: f64, output: f64) -> FixedPointSpec {
 fn design(m: &Mats, spec: &FixedPointSpec) -> Result<fixed_point::FixedDesign, String> {
     let rho = lookout_design::numerics::spectral_radius("F", &m.f).map_err(|e| e.to_string())?;
     let t = FloatTables {
-        form: Form::Predictor,
+        form: if m.current {
+            Form::Current
+        } else {
+            Form::Predictor
+        },
         ad: &m.ad,
         bd: &m.bd,
         cd: &m.cd,
@@ -83,8 +87,9 @@ fn ratio(r: &Measured) -> (f64, bool) {
     (worst, exceeded)
 }
 
-/// A random 3-state predictor design with error poles `poles` and a
-/// non-normal eigenvector matrix V = I + κ U (U strictly upper).
+/// A random 3-state design, predictor or current form, with error poles up
+/// to 0.9999 and a non-normal eigenvector matrix V = I + κ U (U strictly
+/// upper, κ up to 30).
 fn case() -> impl Strategy<Value = Mats> {
     let slow = prop_oneof![0.3f64..0.99, 0.999f64..0.9999];
     let v = |k: usize, b: f64| proptest::collection::vec(-b..b, k);
@@ -96,37 +101,48 @@ fn case() -> impl Strategy<Value = Mats> {
         v(3, 1.0),
         v(3, 0.5),
         v(3, 0.1),
+        any::<bool>(),
     )
-        .prop_map(|(top, others, kappa, upper, c, l, b)| {
-            let poles = [top, others[0] * top, others[1] * top];
-            let mut vm = DMatrix::identity(3, 3);
-            vm[(0, 1)] = kappa * upper[0];
-            vm[(0, 2)] = kappa * upper[1];
-            vm[(1, 2)] = kappa * upper[2];
-            let inv = vm.clone().try_inverse().expect("unit upper triangular");
-            let f = &vm * DMatrix::from_diagonal(&nalgebra::DVector::from_row_slice(&poles)) * inv;
-            Mats::from_error(
-                f,
-                DMatrix::from_row_slice(3, 1, &l),
-                DMatrix::from_row_slice(1, 3, &c),
-                DMatrix::from_row_slice(3, 1, &b),
-            )
-        })
+        .prop_filter_map(
+            "I − K C is singular",
+            |(top, others, kappa, upper, c, l, b, current)| {
+                let poles = [top, others[0] * top, others[1] * top];
+                let mut vm = DMatrix::identity(3, 3);
+                vm[(0, 1)] = kappa * upper[0];
+                vm[(0, 2)] = kappa * upper[1];
+                vm[(1, 2)] = kappa * upper[2];
+                let inv = vm.clone().try_inverse().expect("unit upper triangular");
+                let f =
+                    &vm * DMatrix::from_diagonal(&nalgebra::DVector::from_row_slice(&poles)) * inv;
+                let (l, c, b) = (
+                    DMatrix::from_row_slice(3, 1, &l),
+                    DMatrix::from_row_slice(1, 3, &c),
+                    DMatrix::from_row_slice(3, 1, &b),
+                );
+                if current {
+                    Mats::current_from_error(f, l, c, b)
+                } else {
+                    Some(Mats::from_error(f, l, c, b))
+                }
+            },
+        )
 }
 
-/// Stated factors: how far the bound may sit above the worst measured
-/// deviation. On this test's 10 cases the largest bound/measured ratio was
-/// 4.6e2 (Q31) and 8.6e2 (Q15), 2.2e5 (f32); the limits leave about 2x and
-/// 4x room. Fixed point is within three orders because the bound counts
-/// every rounding at its worst sign and every signal at its scale; f32 is
-/// looser because Higham's γ_k·Σ|terms| assumes every product's rounding
-/// adds up, where random inputs let them cancel.
-const FIXED_FACTOR: f64 = 2e3;
-const FLOAT_FACTOR: f64 = 1e6;
+/// Stated factors: how far the bound may sit above the measured deviation,
+/// per state. On this test's 16 cases (predictor, current and fused forms,
+/// spectral radius drawn up to 0.9999, the largest drawn 0.9994; transient
+/// growth up to 260) the largest
+/// bound/measured ratio was 5.6e2 for Q31, 1.3e6 for Q15 (a slow current-
+/// form case with transient growth 25: the table part takes every state at
+/// its scale, the random run stays far below it) and 1.1e6 for f32
+/// (Higham's γ_k·Σ|terms| takes every product's rounding at its largest,
+/// where random inputs let them cancel). The limits leave about 10x room.
+const Q31_FACTOR: f64 = 5e3;
+const LOOSE_FACTOR: f64 = 1e7;
 
 fn config() -> ProptestConfig {
     ProptestConfig {
-        cases: 10,
+        cases: 16,
         rng_seed: proptest::test_runner::RngSeed::Fixed(0x1212),
         failure_persistence: None,
         ..ProptestConfig::default()
@@ -146,7 +162,7 @@ proptest! {
         for r in measure::<3>(&fx, &m, &record) {
             let (factor, exceeded) = ratio(&r);
             prop_assert!(!exceeded, "{:?} {:?}: measured {:?} above bound {:?}", r.form, r.format, r.measured, r.bound);
-            let allowed = if r.format == NumberKind::F32 { FLOAT_FACTOR } else { FIXED_FACTOR };
+            let allowed = if r.format == NumberKind::Q31 { Q31_FACTOR } else { LOOSE_FACTOR };
             prop_assert!(factor <= allowed, "{:?} {:?}: bound {:?} is {factor:.3e} times the measured {:?}", r.form, r.format, r.bound, r.measured);
         }
     }
@@ -211,6 +227,7 @@ output_range = [10.0]
 
 fn mats_of(d: &lookout_design::Design) -> Mats {
     Mats {
+        current: d.model.observer.form == Form::Current,
         ad: d.ad.clone(),
         bd: d.bd.clone(),
         cd: d.cd.clone(),

@@ -5,16 +5,19 @@
 #![allow(dead_code)]
 
 use lookout::{
-    Fixed, FixedFusedObserver, FixedFusedTables, FixedPredictorObserver, FixedPredictorTables,
+    CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
+    FixedFusedObserver, FixedFusedTables, FixedPredictorObserver, FixedPredictorTables,
     FusedObserver, FusedTables, Matrix, Plant, PredictorObserver, PredictorTables, Q15, Q31, Real,
     Scales, dequantise_real, quantise_real,
 };
 use lookout_design::fixed_point::{FixedDesign, FormKind, NumberKind};
 use nalgebra::DMatrix;
 
-/// The float tables of a predictor design (one input, one output).
+/// The float tables of a predictor or current-form design (one input, one
+/// output); `l` holds L or K.
 #[derive(Debug, Clone)]
 pub struct Mats {
+    pub current: bool,
     pub ad: DMatrix<f64>,
     pub bd: DMatrix<f64>,
     pub cd: DMatrix<f64>,
@@ -30,6 +33,7 @@ impl Mats {
     pub fn from_error(f: DMatrix<f64>, l: DMatrix<f64>, c: DMatrix<f64>, b: DMatrix<f64>) -> Self {
         let d = DMatrix::zeros(c.nrows(), b.ncols());
         Self {
+            current: false,
             ad: &f + &l * &c,
             g: &b - &l * &d,
             h: l.clone(),
@@ -39,6 +43,31 @@ impl Mats {
             l,
             f,
         }
+    }
+
+    /// A current-form design with error matrix `f` and gain K:
+    /// Ad = F (I − K C)⁻¹, G = Bd − Ad K D, H = Ad K.
+    pub fn current_from_error(
+        f: DMatrix<f64>,
+        k: DMatrix<f64>,
+        c: DMatrix<f64>,
+        b: DMatrix<f64>,
+    ) -> Option<Self> {
+        let n = f.nrows();
+        let d = DMatrix::zeros(c.nrows(), b.ncols());
+        let ad = &f * (DMatrix::identity(n, n) - &k * &c).try_inverse()?;
+        let h = &ad * &k;
+        Some(Self {
+            current: true,
+            g: &b - &h * &d,
+            h,
+            bd: b,
+            cd: c,
+            dd: d,
+            l: k,
+            f,
+            ad,
+        })
     }
 }
 
@@ -73,15 +102,27 @@ fn mat<T: Cast, const R: usize, const C: usize>(m: &DMatrix<f64>) -> Matrix<T, R
     Matrix::from_rows(rows)
 }
 
+fn plant<T: Cast, const N: usize>(m: &Mats) -> Plant<T, N, 1, 1> {
+    Plant {
+        a: mat(&m.ad),
+        b: mat(&m.bd),
+        c: mat(&m.cd),
+        d: mat(&m.dd),
+    }
+}
+
 fn predictor<T: Cast, const N: usize>(m: &Mats) -> PredictorTables<T, N, 1, 1> {
     PredictorTables {
-        plant: Plant {
-            a: mat(&m.ad),
-            b: mat(&m.bd),
-            c: mat(&m.cd),
-            d: mat(&m.dd),
-        },
+        plant: plant(m),
         l: mat(&m.l),
+        gate: None,
+    }
+}
+
+fn current<T: Cast, const N: usize>(m: &Mats) -> CurrentTables<T, N, 1, 1> {
+    CurrentTables {
+        plant: plant(m),
+        k: mat(&m.l),
         gate: None,
     }
 }
@@ -101,15 +142,23 @@ fn fused<T: Cast, const N: usize>(m: &Mats) -> FusedTables<T, N, 1, 1> {
 type Trace = Vec<Vec<f64>>;
 
 fn float_runs<T: Cast, const N: usize>(m: &Mats, record: &[(f64, f64)]) -> [Trace; 2] {
-    let (pt, ft) = (predictor::<T, N>(m), fused::<T, N>(m));
+    let (pt, ct, ft) = (predictor::<T, N>(m), current::<T, N>(m), fused::<T, N>(m));
     let mut p = PredictorObserver::new(&pt, [T::of(0.0); N]);
+    let mut c = CurrentObserver::new(&ct, [T::of(0.0); N]);
     let mut f = FusedObserver::new(&ft, [T::of(0.0); N]);
     let (mut a, mut b) = (Vec::new(), Vec::new());
+    let real = |x: &[T; N]| -> Vec<f64> { x.iter().map(|v| v.to()).collect() };
     for &(u, y) in record {
-        p.step(&[T::of(u)], &[T::of(y)]);
-        f.step(&[T::of(u)], &[T::of(y)]);
-        a.push(p.estimate().iter().map(|v| v.to()).collect());
-        b.push(f.estimate().iter().map(|v| v.to()).collect());
+        let (u, y) = ([T::of(u)], [T::of(y)]);
+        if m.current {
+            c.step(&u, &y);
+            a.push(real(c.predicted()));
+        } else {
+            p.step(&u, &y);
+            a.push(real(p.estimate()));
+        }
+        f.step(&u, &y);
+        b.push(real(f.estimate()));
     }
     [a, b]
 }
@@ -118,31 +167,46 @@ fn q<Q: Fixed>(v: f64, e: i8) -> Q {
     quantise_real::<Q>(v, e).expect("inside its scale")
 }
 
-/// Both fixed runs; `None` when the tables cannot be built at these scales.
+/// One fixed observer driven over `record`: `step` takes the Q input and
+/// reading and returns the saturations and the estimate.
+fn fixed_trace<Q: Fixed, const N: usize>(
+    s: Scales<N, 1, 1>,
+    record: &[(f64, f64)],
+    mut step: impl FnMut(&[Q; 1], &[Q; 1]) -> (u16, [Q; N]),
+) -> Trace {
+    record
+        .iter()
+        .map(|&(u, y)| {
+            let (sat, x) = step(&[q::<Q>(u, s.input[0])], &[q::<Q>(y, s.output[0])]);
+            assert_eq!(sat, 0, "a fixed observer saturated");
+            x.iter()
+                .zip(s.state)
+                .map(|(&v, e)| dequantise_real(v, e))
+                .collect()
+        })
+        .collect()
+}
+
+/// The design's own form and the fused form in fixed point; `None` when
+/// the tables cannot be built at these scales.
 fn fixed_runs<Q: Fixed, const N: usize>(
     m: &Mats,
     s: Scales<N, 1, 1>,
     record: &[(f64, f64)],
 ) -> Option<[Trace; 2]> {
-    let pt = FixedPredictorTables::<Q, N, 1, 1>::from_float(&predictor::<f64, N>(m), s).ok()?;
-    let ft = FixedFusedTables::<Q, N, 1, 1>::from_float(&fused::<f64, N>(m), s).ok()?;
-    let mut p = FixedPredictorObserver::new(&pt, [Q::ZERO; N]);
-    let mut f = FixedFusedObserver::new(&ft, [Q::ZERO; N]);
-    let (mut a, mut b) = (Vec::new(), Vec::new());
-    let real = |x: &[Q; N]| -> Vec<f64> {
-        x.iter()
-            .zip(s.state)
-            .map(|(&v, e)| dequantise_real(v, e))
-            .collect()
+    let own = if m.current {
+        let t = FixedCurrentTables::<Q, N, 1, 1>::from_float(&current::<f64, N>(m), s).ok()?;
+        let mut o = FixedCurrentObserver::new(&t, [Q::ZERO; N]);
+        fixed_trace(s, record, |u, y| (o.step(u, y).saturations, *o.predicted()))
+    } else {
+        let t = FixedPredictorTables::<Q, N, 1, 1>::from_float(&predictor::<f64, N>(m), s).ok()?;
+        let mut o = FixedPredictorObserver::new(&t, [Q::ZERO; N]);
+        fixed_trace(s, record, |u, y| (o.step(u, y).saturations, *o.estimate()))
     };
-    for &(u, y) in record {
-        let (uq, yq) = ([q::<Q>(u, s.input[0])], [q::<Q>(y, s.output[0])]);
-        assert_eq!(p.step(&uq, &yq).saturations, 0, "predictor saturated");
-        assert_eq!(f.step(&uq, &yq).saturations, 0, "fused saturated");
-        a.push(real(p.estimate()));
-        b.push(real(f.estimate()));
-    }
-    Some([a, b])
+    let t = FixedFusedTables::<Q, N, 1, 1>::from_float(&fused::<f64, N>(m), s).ok()?;
+    let mut o = FixedFusedObserver::new(&t, [Q::ZERO; N]);
+    let fused = fixed_trace(s, record, |u, y| (o.step(u, y).saturations, *o.estimate()));
+    Some([own, fused])
 }
 
 fn max_dev(run: &Trace, reference: &Trace) -> Vec<f64> {
@@ -184,10 +248,12 @@ pub fn measure<const N: usize>(fx: &FixedDesign, m: &Mats, record: &[(f64, f64)]
     }
     let mut out = Vec::new();
     for (format, traces) in &runs {
-        for (k, form) in [FormKind::Predictor, FormKind::Fused]
-            .into_iter()
-            .enumerate()
-        {
+        let own = if m.current {
+            FormKind::Current
+        } else {
+            FormKind::Predictor
+        };
+        for (k, form) in [own, FormKind::Fused].into_iter().enumerate() {
             let (Some(d), Some(d64)) = (
                 fx.accuracy.get(form, *format),
                 fx.accuracy.get(form, NumberKind::F64),
