@@ -6,7 +6,7 @@
 use super::deviation::{self, Deviation, FormKind, NumberKind, Signals, Stored};
 use super::scales::SignalBounds;
 use super::{FixedError, FloatTables, QuantisedTable, TablePair, format_name};
-use crate::model::{FixedFormat, FixedPointSpec, Form};
+use crate::model::{FixedFormat, FixedPointSpec, Form, ScaleSource};
 use nalgebra::{DMatrix, DVector};
 
 /// Share of a state's range a predicted deviation may reach, without a
@@ -197,23 +197,24 @@ fn first_excess(acc: &Accuracy, d: &Deviation) -> Option<(usize, f64, f64)> {
         .map(|(i, (&v, &l))| (i, v, l))
 }
 
-fn alternatives(acc: &Accuracy) -> String {
+/// What meets the limit, and what would help the rest.
+fn alternatives(spec: &FixedPointSpec, acc: &Accuracy) -> String {
     let ok = acc.meeting();
-    if ok.is_empty() {
-        format!(
-            "no form or format meets it{}",
-            if acc.transient_peak > TRANSIENT_WARNING {
-                format!(
-                    " (the error transient grows {:.3e}-fold: slower error poles or a declared initial_error would shrink it)",
-                    acc.transient_peak
-                )
-            } else {
-                String::new()
-            }
-        )
+    let mut out = if ok.is_empty() {
+        "no form or format meets it".to_string()
     } else {
         format!("combinations that meet it: {}", ok.join(", "))
+    };
+    if acc.transient_peak > TRANSIENT_WARNING {
+        out += &format!(
+            "; the error transient grows {:.3e}-fold, which every bound carries: slower error poles would shrink it",
+            acc.transient_peak
+        );
     }
+    if spec.scales_from == ScaleSource::Readings {
+        out += "; the scales treat every reading as arbitrary: declaring state_range (with initial_error and output_noise) lets them rest on the plant";
+    }
+    out
 }
 
 /// Refuses the design when the requested form and format cannot meet
@@ -250,7 +251,7 @@ pub(super) fn judge(
             (None, None) => None,
         };
         let Some(problem) = problem else { continue };
-        let message = format!("{problem}; {}", alternatives(acc));
+        let message = format!("{problem}; {}", alternatives(spec, acc));
         if acc.limit_declared && index == 0 {
             return Err(FixedError {
                 key: "fixed_point.deviation_limit",
