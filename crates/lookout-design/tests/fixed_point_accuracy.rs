@@ -328,3 +328,51 @@ fn cell_demo_advice_matches_the_runtime() {
         "{err}"
     );
 }
+
+/// Bad values of the new `[fixed_point]` keys name the key (exit 2 in the
+/// CLI); `scales_from` defaults to the plant exactly when `state_range` is
+/// given.
+#[test]
+fn new_fixed_point_keys_are_checked() {
+    let cell = cell_text();
+    let bad = [
+        (
+            "initial_error = [0.05, 0.01, 0.01]",
+            "initial_error = [0.05, -0.01, 0.01]",
+            "initial_error",
+        ),
+        (
+            "output_noise = [0.005]",
+            "output_noise = [0.005, 0.1]",
+            "output_noise",
+        ),
+        (
+            "deviation_limit = [1e-4, 2e-5, 2e-5]",
+            "deviation_limit = [1e-4, 0.0, 2e-5]",
+            "deviation_limit",
+        ),
+        (
+            "state_range = [1.0, 0.15, 0.25]",
+            "scales_from = \"plant\"",
+            "scales_from",
+        ),
+        (
+            "format = \"q31\"",
+            "format = \"q31\"\nscales_from = \"guess\"",
+            "scales_from",
+        ),
+    ];
+    for (from, to, key) in bad {
+        let err = lookout_design::design_text(&cell.replace(from, to), "cell.toml")
+            .unwrap_err()
+            .to_string();
+        assert!(err.contains(key), "{to}: {err}");
+    }
+    let plain = cell.replace("state_range = [1.0, 0.15, 0.25]", "");
+    let d =
+        lookout_design::design_text(&plain.replace("deviation_limit", "# "), "cell.toml").unwrap();
+    assert_eq!(
+        d.model.fixed_point.unwrap().scales_from,
+        ScaleSource::Readings
+    );
+}

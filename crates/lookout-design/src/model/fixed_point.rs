@@ -138,16 +138,15 @@ pub(crate) fn read(
             symbol: "p",
             from: "plant.c",
         })?;
+    let states = Dim {
+        count: plant.n(),
+        per: "state",
+        symbol: "n",
+        from: "plant.a",
+    };
     let state_range = table
         .get("state_range")
-        .map(|node| {
-            node.positive_numbers(Dim {
-                count: plant.n(),
-                per: "state",
-                symbol: "n",
-                from: "plant.a",
-            })
-        })
+        .map(|node| node.positive_numbers(states))
         .transpose()?;
 
     let margin_bits = match table.get("margin_bits") {
@@ -190,48 +189,24 @@ pub(crate) fn read(
         None => DEFAULT_STABILITY_MARGIN,
     };
 
-    let per_state = |key: &str| {
+    let outputs = Dim {
+        count: plant.p(),
+        per: "output",
+        symbol: "p",
+        from: "plant.c",
+    };
+    let bounds = |key: &str, dim: Dim<'_>| {
         table
             .get(key)
-            .map(|node| {
-                non_negative(
-                    &node,
-                    Dim {
-                        count: plant.n(),
-                        per: "state",
-                        symbol: "n",
-                        from: "plant.a",
-                    },
-                )
-            })
+            .map(|node| non_negative(&node, dim))
             .transpose()
     };
-    let initial_error = per_state("initial_error")?;
-    let model_error = per_state("model_error")?;
+    let initial_error = bounds("initial_error", states)?;
+    let model_error = bounds("model_error", states)?;
+    let output_noise = bounds("output_noise", outputs)?;
     let deviation_limit = table
         .get("deviation_limit")
-        .map(|node| {
-            node.positive_numbers(Dim {
-                count: plant.n(),
-                per: "state",
-                symbol: "n",
-                from: "plant.a",
-            })
-        })
-        .transpose()?;
-    let output_noise = table
-        .get("output_noise")
-        .map(|node| {
-            non_negative(
-                &node,
-                Dim {
-                    count: plant.p(),
-                    per: "output",
-                    symbol: "p",
-                    from: "plant.c",
-                },
-            )
-        })
+        .map(|node| node.positive_numbers(states))
         .transpose()?;
     let scales_from = match table.get("scales_from") {
         Some(node) => {
