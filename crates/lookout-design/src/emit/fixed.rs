@@ -55,6 +55,15 @@ pub(super) fn header(fx: &FixedDesign, s: &mut String) {
         "//   quantised spectral radius {:.9} (fused {:.9})",
         fx.spectral_radius, fx.fused_spectral_radius
     );
+    let number = crate::fixed_point::accuracy::number_kind(fx.format);
+    for d in fx.accuracy.deviations.iter().filter(|d| d.format == number) {
+        let _ = writeln!(
+            s,
+            "//   predicted deviation of the {} tables from the exact observer: {}",
+            d.form.name(),
+            d.refused.clone().unwrap_or_else(|| peaks(&d.total))
+        );
+    }
 }
 
 fn peaks(values: &[f64]) -> String {

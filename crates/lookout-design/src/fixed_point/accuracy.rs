@@ -78,7 +78,8 @@ pub fn model_form(t: &FloatTables<'_>) -> FormKind {
     model_form_of(t.gain.is_some(), t.form)
 }
 
-pub(super) fn number_kind(format: FixedFormat) -> NumberKind {
+/// The analysis' name for a Q format.
+pub fn number_kind(format: FixedFormat) -> NumberKind {
     match format {
         FixedFormat::Q31 => NumberKind::Q31,
         FixedFormat::Q15 => NumberKind::Q15,
