@@ -101,3 +101,38 @@ fn cell_demo_in_q15_is_refused_naming_the_state_and_what_meets_it() {
     );
     assert!(err.contains("predictor q31"), "{err}");
 }
+
+/// A model with disturbance states: the plant proof needs a range for every
+/// estimated state and says so (exit 2, no panic); the readings proof judges
+/// the disturbance state against its proven peak.
+#[test]
+fn disturbance_states_get_a_clear_error_or_their_proven_peak() {
+    let base = std::fs::read_to_string(concat!(
+        env!("CARGO_MANIFEST_DIR"),
+        "/../../examples/conveyor_load.toml"
+    ))
+    .unwrap();
+    let fixed = "\n[fixed_point]\nformat = \"q31\"\ninput_range = [5.0]\noutput_range = [64.0]\nstate_range = [64.0, 300.0]\n";
+    let path = scratch("load_plant.toml", &(base.clone() + fixed));
+    let out = lookout(&["design", path.to_str().unwrap()]);
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(
+        err.contains("fixed_point.state_range") && err.contains("3 with the disturbance states"),
+        "{err}"
+    );
+    let path = scratch(
+        "load_readings.toml",
+        &(base + fixed + "scales_from = \"readings\"\n"),
+    );
+    let out = lookout(&["design", "--json", path.to_str().unwrap()]);
+    assert!(out.status.success());
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(
+        v["fixed_point"]["format_accuracy"]["limit"]
+            .as_array()
+            .unwrap()
+            .len(),
+        3
+    );
+}

@@ -162,14 +162,29 @@ pub(super) fn analyse(
             });
         }
     }
-    let range = spec
-        .state_range
-        .clone()
-        .unwrap_or_else(|| signals.state.clone());
-    let limit = spec
-        .deviation_limit
-        .clone()
-        .unwrap_or_else(|| range.iter().map(|r| r * DEFAULT_SHARE).collect());
+    // Disturbance states have no declared range or limit: their proven
+    // peak and 1 % of it stand in.
+    let range: Vec<f64> = signals
+        .state
+        .iter()
+        .enumerate()
+        .map(|(i, &peak)| {
+            spec.state_range
+                .as_ref()
+                .and_then(|r| r.get(i).copied())
+                .unwrap_or(peak)
+        })
+        .collect();
+    let limit = range
+        .iter()
+        .enumerate()
+        .map(|(i, r)| {
+            spec.deviation_limit
+                .as_ref()
+                .and_then(|l| l.get(i).copied())
+                .unwrap_or(r * DEFAULT_SHARE)
+        })
+        .collect();
     let (transient_peak, transient_step) = transient(t.f, sx);
     Ok(Accuracy {
         deviations,

@@ -78,11 +78,22 @@ pub(super) fn signal_bounds(
 ) -> Result<SignalBounds, FixedError> {
     let n = t.f.nrows();
     let (x_peak, innovation, proof, error) = match (spec.scales_from, &spec.state_range) {
+        (ScaleSource::Plant, Some(range)) if range.len() != n => {
+            return Err(FixedError {
+                key: "fixed_point.state_range",
+                message: format!(
+                    "the plant-based scales need the range of every estimated state, {n} with the disturbance states, but state_range has {}; set scales_from = \"readings\"",
+                    range.len()
+                ),
+            });
+        }
         (ScaleSource::Plant, Some(range)) => {
             let noise = spec
                 .output_noise
                 .clone()
                 .unwrap_or_else(|| vec![0.0; t.cd.nrows()]);
+            // Both have n entries when given (the reader checks the plant's
+            // n, and state_range's length equal to n rules out extra states).
             let w = spec.model_error.clone().unwrap_or_else(|| vec![0.0; n]);
             let e0 = spec.initial_error.clone().unwrap_or_else(|| range.clone());
             let ex = t.ad - t.f - t.h * t.cd;
