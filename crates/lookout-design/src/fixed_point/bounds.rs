@@ -1,9 +1,9 @@
 //! Guaranteed peaks of a linear recursion driven by bounded inputs.
 //!
 //! For x⁺ = F x + E w with |w_j| ≤ W_j, every component of x obeys
-//! |x_i[k]| ≤ Σ_{t≥0} (|F^t E| W)_i + sup_t (|F^t| |x[0]|)_i, the ℓ1 norm of
+//! |x_i\[k\]| ≤ Σ_{t≥0} (|F^t E| W)_i + sup_t (|F^t| |x\[0\]|)_i, the ℓ1 norm of
 //! the impulse response applied to the ranges, plus the initial-state term;
-//! a sign pattern w[k] = W ∘ sign((F^{K−1−k} E)_i) reaches the first sum.
+//! a sign pattern w\[k\] = W ∘ sign((F^{K−1−k} E)_i) reaches the first sum.
 //!
 //! # Summing slow responses quickly: digits of t
 //!
@@ -52,7 +52,7 @@ pub struct PeakBound {
     pub peak: Vec<f64>,
     /// The input part Σ_t |F^t E| W, per component.
     pub driven: Vec<f64>,
-    /// The initial-state part sup_t |F^t| |x[0]|, per component.
+    /// The initial-state part sup_t |F^t| |x\[0\]|, per component.
     pub initial: Vec<f64>,
     /// Terms summed one by one (the first window K₀).
     pub terms: usize,
@@ -154,7 +154,7 @@ fn level(p: &DMatrix<f64>, stride: f64, sums: &mut Sums) -> DMatrix<f64> {
     power
 }
 
-/// Proves the peak of x⁺ = F x + E w with |w| ≤ `w` and |x[0]| ≤ `x0`
+/// Proves the peak of x⁺ = F x + E w with |w| ≤ `w` and |x\[0\]| ≤ `x0`
 /// (see the module docs for the method).
 pub fn peak(
     f: &DMatrix<f64>,

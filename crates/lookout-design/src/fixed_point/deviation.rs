@@ -3,15 +3,15 @@
 //!
 //! # The model
 //!
-//! Every form, while all channels are used, runs x̃⁺ = F̃ x̃ + G̃ ũ + H̃ ỹ + ρ[k]
+//! Every form, while all channels are used, runs x̃⁺ = F̃ x̃ + G̃ ũ + H̃ ỹ + ρ\[k\]
 //! where F̃, G̃, H̃ are built from the *stored* tables (predictor:
 //! F̃ = Ã − L̃ C̃, G̃ = B̃ − L̃ D̃, H̃ = L̃; current: F̃ = Ã − Ã K̃ C̃,
 //! G̃ = B̃ − Ã K̃ D̃, H̃ = Ã K̃; fused: as stored), ũ and ỹ are the inputs as
-//! converted, and ρ[k] is the rounding of the step itself. Against the exact
+//! converted, and ρ\[k\] is the rounding of the step itself. Against the exact
 //! x⁺ = F x + G u + H y the deviation d = x̃ − x obeys
 //!
 //! ```text
-//! d⁺ = F̃ d + (ΔF x + ΔG u + ΔH y) + (G̃ δu + H̃ δy + ρ[k]),   ΔF = F̃ − F, …
+//! d⁺ = F̃ d + (ΔF x + ΔG u + ΔH y) + (G̃ δu + H̃ δy + ρ\[k\]),   ΔF = F̃ − F, …
 //! ```
 //!
 //! so |d| is at most the ℓ1 impulse response of F̃ ([`bounds::peak`])

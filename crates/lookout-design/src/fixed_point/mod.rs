@@ -4,23 +4,28 @@
 //!
 //! # Scales
 //!
-//! The estimate of the fused recursion x̂⁺ = F x̂ + G u + H y (every observer
-//! form follows it while all channels are used) is bounded, for |u| ≤
-//! `input_range`, |y| ≤ `output_range` and an initial estimate inside its
-//! own driven bound (zero, say), by the ℓ1 norm of the impulse response
-//! applied to the ranges plus the initial-state term ([`bounds::peak`]).
-//! The innovation r = y − C x̂ − D u (stored at the output's scale, as is the
-//! stand-in reading C x̂ + D u) is then bounded by |y| + |C| x̂max + |D| u,
-//! and for the current form the filtered estimate x̂[k|k] = x̂ + K r by
-//! x̂max + |K| rmax. Each scale exponent s is the smallest with
-//! bound · 2^margin_bits < 2^s (declared ranges get no margin). The tables'
-//! row exponents follow the runtime's row-sum rule, which makes the wide
-//! accumulator safe whenever every signal is inside its scale, so no
-//! intermediate sum can overflow either.
+//! Every signal's scale exponent s is the smallest with
+//! bound · 2^margin_bits < 2^s (declared input and output ranges get no
+//! margin), where the bounds come from one of two proofs ([`scales`]): the
+//! readings' (every reading arbitrary within its range, the ℓ1 impulse
+//! response of the observer) or the plant's (`state_range` plus the bound
+//! of the estimation error). Both sum impulse responses with
+//! [`bounds::peak`], which handles spectral radii up to 1 − 1e-7 quickly.
+//! The tables' row exponents follow the runtime's row-sum rule, which makes
+//! the wide accumulator safe whenever every signal is inside its scale, so
+//! no intermediate sum can overflow either.
 //!
 //! Not covered: with channels missing the estimate follows the open-loop
 //! model, which need not be bounded (an integrator is not); the runtime then
 //! saturates and counts, it never wraps.
+//!
+//! # Accuracy
+//!
+//! [`deviation`] predicts how far each form run in each number format can
+//! drift from the exact observer; [`accuracy`] collects the form × format
+//! table on the design ([`FixedDesign::accuracy`]), checks it against
+//! `deviation_limit`, and warns about lost table entries and transient
+//! growth.
 //!
 //! # Quantised stability
 //!

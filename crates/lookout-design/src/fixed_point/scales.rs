@@ -9,7 +9,7 @@
 //! * Plant: with the true plant x⁺ = A x + B u + w, y = C x + D u + v and
 //!   |x| ≤ `state_range`, the error e = x − x̂ obeys
 //!   e⁺ = F e + w − H v + Ex x + Eu u (Ex = A − F − H C and Eu = B − G − H D
-//!   vanish for every observer but a held one), from |e[0]| ≤
+//!   vanish for every observer but a held one), from |e\[0\]| ≤
 //!   `initial_error`. So |x̂| ≤ `state_range` + ē and |r| = |C e + v| ≤
 //!   |C| ē + |v|. Valid while the plant stays in its declared range; the
 //!   runtime's saturation count is the guard when it does not.
