@@ -399,13 +399,13 @@ fn accuracy_table(s: &mut String, names: &[String], a: &lookout_design::fixed_po
         s,
         "  predicted deviation from the exact observer, per state (rounded tables + per-step rounding; signals inside their scales):"
     );
-    let mut head = format!("  {:<10}{:<7}", "form", "format");
+    let mut head = format!("  {:<10}{:<7}{:>13}", "form", "format", "error radius");
     for name in names {
         let _ = write!(head, "{name:>12}");
     }
     let _ = writeln!(s, "{head}  usable");
     let mut limit = format!(
-        "  {:<17}",
+        "  {:<30}",
         if a.limit_declared {
             "deviation_limit"
         } else {
@@ -423,6 +423,7 @@ fn accuracy_table(s: &mut String, names: &[String], a: &lookout_design::fixed_po
                 let _ = writeln!(s, "{row}cannot run: {why}");
             }
             None => {
+                let _ = write!(row, "{:>13.9}", d.spectral_radius);
                 for v in &d.total {
                     let _ = write!(row, "{v:>12.3e}");
                 }
