@@ -218,6 +218,16 @@ pub enum NumericsError {
         /// Tolerance it had to meet.
         tolerance: f64,
     },
+    /// A matrix exponential failed its a-posteriori accuracy check (two
+    /// evaluations at different scalings disagree).
+    ExpmInaccurate {
+        /// Matrix name.
+        matrix: &'static str,
+        /// Estimated relative error, 1-norm.
+        estimate: f64,
+        /// Tolerance it had to meet.
+        tolerance: f64,
+    },
     /// The computed gain does not make the error dynamics stable.
     NotStabilising {
         /// Name of the closed-loop matrix (e.g. `"A - L C"`).
@@ -409,6 +419,14 @@ impl fmt::Display for NumericsError {
             } => write!(
                 f,
                 "{equation}: relative residual {residual:e} exceeds {tolerance:e}"
+            ),
+            E::ExpmInaccurate {
+                matrix,
+                estimate,
+                tolerance,
+            } => write!(
+                f,
+                "exp({matrix}) cannot be computed to the accuracy needed: estimated relative error {estimate:e} (1-norm) exceeds {tolerance:e}; the matrix is too badly scaled or too large (check units and sample period)"
             ),
             E::NotStabilising {
                 matrix,

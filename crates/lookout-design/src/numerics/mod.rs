@@ -35,6 +35,6 @@ pub use dare::{KalmanGains, solve_filter_dare};
 pub use discretise::{van_loan_process_noise, zoh};
 pub use eig::{eigenvalues, spectral_radius};
 pub use error::{NumericsError, NumericsWarning, Result};
-pub use expm::{EXPM_NORM_LIMIT, expm};
+pub use expm::{EXPM_NORM_LIMIT, EXPM_TOLERANCE, Exponential, expm, expm_with_estimate};
 pub use observability::{ObservabilityReport, PbhMode, observability};
 pub use place::{Placement, place_observer_poles};
