@@ -126,6 +126,13 @@ pub fn design(d: &Design) -> String {
         Domain::Discrete => "plant (given in discrete time)",
     };
     let _ = writeln!(s, "{sampled}");
+    if let Some(acc) = d.hold_accuracy {
+        let _ = writeln!(
+            s,
+            "  hold error  {acc:.1e} (estimated relative error of [Ad Bd], 1-norm; refused above {:.0e})",
+            lookout_design::numerics::EXPM_TOLERANCE
+        );
+    }
     matrix(&mut s, "Ad", &d.ad);
     matrix(&mut s, "Bd", &d.bd);
     matrix(&mut s, "Cd", &d.cd);

@@ -12,7 +12,7 @@
 
 use super::checks;
 use super::error::{NumericsError, Result};
-use super::expm::expm;
+use super::expm::{expm, expm_with_estimate};
 use nalgebra::DMatrix;
 
 fn check_period(t: f64) -> Result<()> {
@@ -28,9 +28,20 @@ fn check_period(t: f64) -> Result<()> {
 
 /// Zero-order-hold discretisation: returns `(A_d, B_d)` for sample period `t` (s).
 ///
-/// `a` is n×n, `b` is n×m (m ≥ 1). Errors on shape, non-finite input, `t ≤ 0`
-/// and on `‖[[A, B], [0, 0]]·T‖₁` above [`super::EXPM_NORM_LIMIT`].
+/// `a` is n×n, `b` is n×m (m ≥ 1). Errors on shape, non-finite input, `t ≤ 0`,
+/// on `‖[[A, B], [0, 0]]·T‖₁` above [`super::EXPM_NORM_LIMIT`] and when the
+/// exponential fails its accuracy check ([`super::EXPM_TOLERANCE`]).
 pub fn zoh(a: &DMatrix<f64>, b: &DMatrix<f64>, t: f64) -> Result<(DMatrix<f64>, DMatrix<f64>)> {
+    zoh_with_estimate(a, b, t).map(|(ad, bd, _)| (ad, bd))
+}
+
+/// [`zoh`], also returning the relative error estimate (1-norm) of the block
+/// exponential `[[A_d, B_d], [0, I]]` (see [`super::expm`]).
+pub fn zoh_with_estimate(
+    a: &DMatrix<f64>,
+    b: &DMatrix<f64>,
+    t: f64,
+) -> Result<(DMatrix<f64>, DMatrix<f64>, f64)> {
     let n = checks::square("A", a)?;
     checks::shape("B", b, n, usize::MAX)?;
     check_period(t)?;
@@ -38,10 +49,10 @@ pub fn zoh(a: &DMatrix<f64>, b: &DMatrix<f64>, t: f64) -> Result<(DMatrix<f64>, 
     let mut blk = DMatrix::<f64>::zeros(n + m, n + m);
     blk.view_mut((0, 0), (n, n)).copy_from(&(a * t));
     blk.view_mut((0, n), (n, m)).copy_from(&(b * t));
-    let e = expm("[[A, B], [0, 0]]·T", &blk)?;
-    let ad = e.view((0, 0), (n, n)).into_owned();
-    let bd = e.view((0, n), (n, m)).into_owned();
-    Ok((ad, bd))
+    let e = expm_with_estimate("[[A, B], [0, 0]]·T", &blk)?;
+    let ad = e.value.view((0, 0), (n, n)).into_owned();
+    let bd = e.value.view((0, n), (n, m)).into_owned();
+    Ok((ad, bd, e.relative_error_estimate))
 }
 
 /// Discrete process-noise covariance `Q_d` by Van Loan's (1978) block exponential.
