@@ -144,7 +144,7 @@ pub fn design(d: &Design) -> String {
     let obs = &d.observability;
     let _ = writeln!(
         s,
-        "observability   rank {} of {} (singular values of the observability matrix, tolerance {:.2e}); condition {:.3e}",
+        "observability   rank {} of {} (staircase reduction of the shifted, normalised pair; pivot tolerance {:.2e}); condition {:.3e} (1 / smallest pivot)",
         obs.rank,
         d.n(),
         obs.rank_tolerance,

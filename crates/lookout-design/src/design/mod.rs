@@ -250,7 +250,8 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
                     eigenvalue.re, eigenvalue.im
                 ),
             ));
-            unobservable_report(&ad, &cd).map_err(fail("observability of (Ad, Cd)"))?
+            numerics::observability::observability_staircase(&ad, &cd)
+                .map_err(fail("observability of (Ad, Cd)"))?
         }
         Err(e) => return Err(fail("observability of (Ad, Cd)")(e)),
     };
@@ -352,30 +353,6 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
     }
     design.stage_seconds.checks += lap(&mut clock);
     Ok(design)
-}
-
-/// Rank and singular values of the observability matrix when some mode is
-/// unobservable (the PBH analysis has refused it).
-fn unobservable_report(
-    ad: &DMatrix<f64>,
-    cd: &DMatrix<f64>,
-) -> Result<ObservabilityReport, NumericsError> {
-    let o = numerics::observability::observability_matrix(ad, cd)?;
-    // Capped iterations: nalgebra's plain singular_values() has no limit.
-    let singular_values = numerics::checks::singular_values("observability matrix", &o)?;
-    let top = singular_values.iter().copied().fold(0.0, f64::max);
-    let rank_tolerance = o.nrows().max(o.ncols()) as f64 * f64::EPSILON * top;
-    Ok(ObservabilityReport {
-        rank: singular_values
-            .iter()
-            .filter(|&&s| s > rank_tolerance)
-            .count(),
-        rank_tolerance,
-        singular_values,
-        condition: f64::INFINITY,
-        modes: Vec::new(),
-        warnings: Vec::new(),
-    })
 }
 
 /// FNV-1a, 64 bits (Fowler–Noll–Vo; offset basis and prime as published).

@@ -29,6 +29,7 @@ pub mod expm;
 pub mod observability;
 pub mod place;
 mod place_polynomial;
+mod staircase;
 mod subspace;
 
 pub use dare::{KalmanGains, solve_filter_dare};
