@@ -308,3 +308,44 @@ pub fn expm_with_estimate(name: &'static str, m: &DMatrix<f64>) -> Result<Expone
 pub fn expm(name: &'static str, m: &DMatrix<f64>) -> Result<DMatrix<f64>> {
     expm_with_estimate(name, m).map(|e| e.value)
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The estimate catches the failure issue 18 found: Higham's 2005 choice
+    /// (no balancing, `s` from `‖A‖₁`, degree 13) on Moler's badly scaled
+    /// example (C. Moler, "A balancing act for the matrix exponential", 2012;
+    /// the matrix of SciPy's test_burkardt_14) at `‖A·T‖₁ = 10⁹` is wrong, and
+    /// two such evaluations one squaring apart disagree by far more than
+    /// [`EXPM_TOLERANCE`], so a result computed that way would be refused.
+    #[test]
+    fn estimate_flags_overscaled_evaluation_issue_18() {
+        let a = DMatrix::from_row_slice(
+            3,
+            3,
+            &[
+                0.0,
+                1e-8,
+                0.0,
+                -(2e10 + 4e8 / 6.0),
+                -3.0,
+                2e10,
+                200.0 / 3.0,
+                0.0,
+                -200.0 / 3.0,
+            ],
+        );
+        let m = &a * (1e9 / checks::norm1(&a));
+        let p = Powers::new(m.clone());
+        let s = (checks::norm1(&m) / THETA[4].1).log2().ceil() as i32;
+        let x1 = evaluate("M", &p, 13, s).unwrap();
+        let x2 = evaluate("M", &p, 13, s + 1).unwrap();
+        let est = checks::norm1(&(&x1 - &x2)) / checks::norm1(&x1);
+        println!("overscaled evaluation: estimate {est:.2e}");
+        assert!(est > 1e3 * EXPM_TOLERANCE, "{est:e}");
+        // The algorithm itself balances, needs no squaring here, and passes.
+        let good = expm_with_estimate("M", &m).unwrap();
+        assert!(good.balanced && good.relative_error_estimate <= EXPM_TOLERANCE);
+    }
+}
