@@ -287,7 +287,7 @@ pub fn expm_with_estimate(name: &'static str, m: &DMatrix<f64>) -> Result<Expone
     } else {
         0.0
     };
-    if !(estimate <= EXPM_TOLERANCE) {
+    if estimate.is_nan() || estimate > EXPM_TOLERANCE {
         return Err(NumericsError::ExpmInaccurate {
             matrix: name,
             estimate,

@@ -80,7 +80,7 @@ fn compress(m: &mut DMatrix<f64>, k: usize, mut z: DMatrix<f64>, tol: f64) -> Ve
         let (best, norm) = (j..cols)
             .map(|c| (c, z.view((j, c), (rows - j, 1)).norm()))
             .fold((j, -1.0), |acc, cur| if cur.1 > acc.1 { cur } else { acc });
-        if !(norm > tol) {
+        if norm.is_nan() || norm <= tol {
             break;
         }
         z.swap_columns(j, best);
