@@ -58,6 +58,7 @@ pub fn design(d: &Design) -> String {
             "rank": d.observability.rank,
             "n": d.n(),
             "condition": d.observability.condition,
+            "pbh_margin": d.observability.smallest_pbh_margin(),
         },
         "hold_error_estimate": d.hold_accuracy,
         "stage_seconds": {

@@ -4,7 +4,7 @@
 #[macro_use]
 mod numerics_common;
 
-use lookout_design::numerics::{NumericsError, observability};
+use lookout_design::numerics::{NumericsError, NumericsWarning, observability};
 use nalgebra::DMatrix;
 use numerics_common::{fixture, m};
 
@@ -118,7 +118,24 @@ fn full_measurement_gives_full_rank_issue_18() {
         assert_eq!(r.rank, n);
         assert!((r.condition - (n as f64).sqrt()).abs() <= 1e-12 * n as f64);
         assert!(r.modes.is_empty(), "above PBH_MODES_MAX_STATES");
+        // σ_min(I/√n)/3, closed form.
+        let bound = r.pbh_lower_bound.unwrap();
+        assert!((bound - 1.0 / (3.0 * (n as f64).sqrt())).abs() <= 1e-14);
+        assert!(r.warnings.is_empty(), "{:?}", r.warnings);
     }
+    // One output on 50 states: no bound, and the report says the per-mode
+    // test was not made.
+    let n = 50;
+    let a = DMatrix::from_fn(n, n, |i, j| if j == i + 1 { 1.0 } else { 0.0 });
+    let c = DMatrix::from_fn(1, n, |_, j| if j == 0 { 1.0 } else { 0.0 });
+    let r = observability(&a, &c).unwrap();
+    assert_eq!(r.rank, n);
+    assert_eq!(r.smallest_pbh_margin(), None);
+    assert!(
+        r.warnings
+            .iter()
+            .any(|w| matches!(w, NumericsWarning::PbhNotChecked { states: 50, .. }))
+    );
 }
 
 /// Issue 18: the chain of integrators sampled at T from 1e-9 to 1 is

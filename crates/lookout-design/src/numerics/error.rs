@@ -453,6 +453,16 @@ pub enum NumericsWarning {
         /// State dimension.
         required: usize,
     },
+    /// The per-mode PBH test was not made (too many states for its O(n⁴)
+    /// cost and no lower bound from C); the staircase decided alone.
+    PbhNotChecked {
+        /// State dimension.
+        states: usize,
+        /// Largest dimension tested mode by mode.
+        limit: usize,
+        /// The staircase's condition figure.
+        condition: f64,
+    },
     /// A mode is observable but only weakly (PBH margin small).
     WeaklyObservable {
         /// Index of the eigenvalue in the sorted spectrum.
@@ -493,6 +503,14 @@ impl fmt::Display for NumericsWarning {
             W::ObservabilityMatrixRankDeficient { rank, required } => write!(
                 f,
                 "observability matrix has numerical rank {rank} < {required} although every mode passes the PBH test (badly scaled states?)"
+            ),
+            W::PbhNotChecked {
+                states,
+                limit,
+                condition,
+            } => write!(
+                f,
+                "the PBH margin of each mode was not computed ({states} states > {limit}); observability rests on the staircase reduction alone (condition {condition:e})"
             ),
             W::WeaklyObservable {
                 index,

@@ -83,8 +83,30 @@ pub struct ObservabilityReport {
     /// [`PBH_MODES_MAX_STATES`] states; empty above that size (the per-mode
     /// test costs O(n⁴)) and when the staircase has already refused the pair.
     pub modes: Vec<PbhMode>,
+    /// Above [`PBH_MODES_MAX_STATES`] states with at least as many outputs
+    /// as states: a lower bound on every mode's PBH margin,
+    /// `σ_min(C̃) / 3` (since `σ_min([λI − Ã; C̃]) ≥ σ_min(C̃)` and
+    /// `σ_max ≤ |λ| + ‖Ã‖ + ‖C̃‖ ≤ 3` for the normalised pair). `None` when
+    /// the margins are computed one by one, or when no such bound exists
+    /// (fewer outputs than states; a warning then says the per-mode test
+    /// was not made).
+    pub pbh_lower_bound: Option<f64>,
     /// Non-fatal findings.
     pub warnings: Vec<NumericsWarning>,
+}
+
+impl ObservabilityReport {
+    /// The smallest PBH margin over the modes when they were computed one by
+    /// one, else [`ObservabilityReport::pbh_lower_bound`]; `None` when
+    /// neither is known.
+    pub fn smallest_pbh_margin(&self) -> Option<f64> {
+        let computed = self
+            .modes
+            .iter()
+            .map(|m| m.relative_sigma_min)
+            .reduce(f64::min);
+        computed.or(self.pbh_lower_bound)
+    }
 }
 
 /// The observability matrix `[C; CA; …; CA^{n−1}]`.
@@ -160,6 +182,15 @@ pub fn observability(a: &DMatrix<f64>, c: &DMatrix<f64>) -> Result<Observability
     }
     if pair.n() <= PBH_MODES_MAX_STATES {
         report.modes = pair.margins(&eigs)?;
+    } else {
+        report.pbh_lower_bound = pair.margin_bound()?;
+        if report.pbh_lower_bound.is_none_or(|b| b < PBH_WARN) {
+            report.warnings.push(NumericsWarning::PbhNotChecked {
+                states: pair.n(),
+                limit: PBH_MODES_MAX_STATES,
+                condition: report.condition,
+            });
+        }
     }
     for (i, m) in report.modes.iter().enumerate() {
         if m.relative_sigma_min <= PBH_TOLERANCE {
@@ -267,6 +298,7 @@ impl Normalised {
             pivots: st.pivots.clone(),
             condition: 1.0 / smallest,
             modes: Vec::new(),
+            pbh_lower_bound: None,
             warnings: Vec::new(),
         }
     }
@@ -296,6 +328,16 @@ impl Normalised {
             o.eigenvalue = m.original;
         }
         Ok(out)
+    }
+
+    /// `σ_min(C̃)/3` when C has at least n rows (see
+    /// [`ObservabilityReport::pbh_lower_bound`]).
+    fn margin_bound(&self) -> Result<Option<f64>> {
+        if self.c.nrows() < self.n() {
+            return Ok(None);
+        }
+        let sv = checks::singular_values("C (normalised)", &self.c)?;
+        Ok(sv.last().map(|s| s / 3.0))
     }
 
     /// The error naming the unobservable mode first in the sorted spectrum.
