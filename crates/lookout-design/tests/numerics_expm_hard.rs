@@ -168,3 +168,35 @@ fn seed_bytes(seed: u64) -> [u8; 32] {
     }
     out
 }
+
+/// Van Loan's block for a stiff plant at a long period (issue 18): exp(−A T)
+/// grows like e^{‖A T‖} while Q_d does not, which cost digits (2e-6 relative
+/// at ‖A T‖ = 100) or overflowed (‖A T‖ ≳ 700). Closed form for
+/// A = diag(−λ₁, −λ₂), G = I, Q_c = I: Q_d = diag((1 − e^{−2λᵢT}) / (2λᵢ)).
+/// Tolerance 64·ε·‖A T‖₁ relative (k = 64): the 2ᵏ ≈ ‖A T‖₁ period
+/// doublings multiply A_d(h) ≈ I − A h, whose slow modes are stored to ε
+/// absolute, so their relative error grows like 2ᵏ·ε (the same loss as in the
+/// squaring phase of any scaling-and-squaring exponential).
+#[test]
+fn van_loan_stiff_closed_form_issue_18() {
+    use lookout_design::numerics::van_loan_process_noise;
+    for &(fast, t) in &[
+        (1e4_f64, 0.01_f64),
+        (1e5, 0.01),
+        (1e6, 0.001),
+        (1e3, 1.0),
+        (1e8, 1.0),
+    ] {
+        let a = DMatrix::from_row_slice(2, 2, &[-fast, 0.0, 0.0, -1.0]);
+        let id = DMatrix::<f64>::identity(2, 2);
+        let qd = van_loan_process_noise(&a, &id, &id, t).unwrap();
+        let exact = |l: f64| -(-2.0 * l * t).exp_m1() / (2.0 * l);
+        let tol = 64.0 * f64::EPSILON * fast * t;
+        for (i, l) in [(0, fast), (1, 1.0)] {
+            let r = (qd[(i, i)] - exact(l)).abs() / exact(l);
+            println!("λ={l:e} T={t}: Qd relative error {r:.2e}");
+            assert!(r <= tol, "λ={l} T={t}: {r:e}");
+        }
+        assert!(qd[(0, 1)].abs() <= tol * exact(fast));
+    }
+}
