@@ -88,7 +88,7 @@ pub struct Design {
     /// `[fixed_point]` section.
     pub fixed_point: Option<crate::fixed_point::FixedDesign>,
     /// Estimated relative error (1-norm) of the zero-order hold's block
-    /// exponential `[[Ad, Bd], [0, I]]` (see [`numerics::expm`]); `None` when
+    /// exponential `[[Ad, Bd], [0, I]]` (see [`numerics::expm`](mod@crate::numerics::expm)); `None` when
     /// the plant is given in discrete time.
     pub hold_accuracy: Option<f64>,
     /// Wall-clock time of each design stage.

@@ -36,7 +36,7 @@ pub fn zoh(a: &DMatrix<f64>, b: &DMatrix<f64>, t: f64) -> Result<(DMatrix<f64>, 
 }
 
 /// [`zoh`], also returning the relative error estimate (1-norm) of the block
-/// exponential `[[A_d, B_d], [0, I]]` (see [`super::expm`]).
+/// exponential `[[A_d, B_d], [0, I]]` (see [`super::expm`](mod@super::expm)).
 pub fn zoh_with_estimate(
     a: &DMatrix<f64>,
     b: &DMatrix<f64>,

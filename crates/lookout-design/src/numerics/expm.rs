@@ -15,7 +15,7 @@
 //! this costs at most two extra matrix products.
 //!
 //! Before that the input is balanced (Parlett–Reinsch diagonal similarity
-//! with powers of two, [`super::balance`]) when balancing lowers `‖A‖₁`, as
+//! with powers of two, `balance.rs`) when balancing lowers `‖A‖₁`, as
 //! Higham's published `expm` does; the scaling is undone exactly afterwards,
 //! `exp(A) = D exp(D⁻¹AD) D⁻¹`.
 //!

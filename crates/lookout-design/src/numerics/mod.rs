@@ -3,10 +3,10 @@
 //!
 //! | stage | module | method |
 //! |---|---|---|
-//! | matrix exponential | [`expm`] | Al-Mohy–Higham (2009) scaling and squaring after balancing, Padé degree 3–13, a-posteriori accuracy estimate |
+//! | matrix exponential | [`expm`](mod@expm) | Al-Mohy–Higham (2009) scaling and squaring after balancing, Padé degree 3–13, a-posteriori accuracy estimate |
 //! | zero-order hold, process noise | [`discretise`] | block exponentials; Van Loan (1978) |
 //! | eigenvalues | [`eig`] | Parlett–Reinsch balancing, Hessenberg, Francis double-shift QR (capped) |
-//! | observability | [`observability`] | staircase reduction (Van Dooren 1981) with Householder QR and column pivoting; PBH test per mode on small plants |
+//! | observability | [`observability`](mod@observability) | staircase reduction (Van Dooren 1981) with Householder QR and column pivoting; PBH test per mode on small plants |
 //! | observer pole placement | [`place`] | Kautsky–Nichols–Van Dooren (1985) method 0 on the dual pair |
 //! | steady-state Kalman filter | [`dare`] | structure-preserving doubling (Chu, Fan, Lin, Wang 2004) |
 //!

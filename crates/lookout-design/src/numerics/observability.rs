@@ -1,6 +1,6 @@
 //! Observability of a pair (A, C), continuous or discrete (the tests are the same).
 //!
-//! The decision is made by the staircase reduction ([`super::staircase`],
+//! The decision is made by the staircase reduction (`staircase.rs`,
 //! Van Dooren 1981) of the dual pair (Ãᵀ, C̃ᵀ), where
 //!
 //! * `A` and `C` are first scaled by powers of two (exact) so that their
