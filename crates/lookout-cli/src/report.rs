@@ -126,6 +126,13 @@ pub fn design(d: &Design) -> String {
         Domain::Discrete => "plant (given in discrete time)",
     };
     let _ = writeln!(s, "{sampled}");
+    if let Some(acc) = d.hold_accuracy {
+        let _ = writeln!(
+            s,
+            "  hold error  {acc:.1e} (estimated relative error of [Ad Bd], 1-norm; refused above {:.0e})",
+            lookout_design::numerics::EXPM_TOLERANCE
+        );
+    }
     matrix(&mut s, "Ad", &d.ad);
     matrix(&mut s, "Bd", &d.bd);
     matrix(&mut s, "Cd", &d.cd);
@@ -137,7 +144,7 @@ pub fn design(d: &Design) -> String {
     let obs = &d.observability;
     let _ = writeln!(
         s,
-        "observability   rank {} of {} (singular values of the observability matrix, tolerance {:.2e}); condition {:.3e}",
+        "observability   rank {} of {} (staircase reduction of the shifted, normalised pair; pivot tolerance {:.2e}); condition {:.3e} (1 / smallest pivot)",
         obs.rank,
         d.n(),
         obs.rank_tolerance,

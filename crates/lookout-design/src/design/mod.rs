@@ -87,8 +87,38 @@ pub struct Design {
     /// The fixed-point tables and their proofs, when the model has a
     /// `[fixed_point]` section.
     pub fixed_point: Option<crate::fixed_point::FixedDesign>,
+    /// Estimated relative error (1-norm) of the zero-order hold's block
+    /// exponential `[[Ad, Bd], [0, I]]` (see [`numerics::expm`](mod@crate::numerics::expm)); `None` when
+    /// the plant is given in discrete time.
+    pub hold_accuracy: Option<f64>,
+    /// Wall-clock time of each design stage.
+    pub stage_seconds: StageSeconds,
     /// Non-fatal findings.
     pub warnings: Vec<Warning>,
+}
+
+/// Wall-clock seconds spent in each stage of [`design_file`], so a slow
+/// stage shows.
+#[derive(Debug, Clone, Copy, Default, PartialEq)]
+pub struct StageSeconds {
+    /// Zero-order hold of (A, B).
+    pub hold: f64,
+    /// Separability of disturbances and observability of (Ad, Cd).
+    pub observability: f64,
+    /// The gain (placement, Kalman, or held observer), including process noise.
+    pub gain: f64,
+    /// Eigenvalues of Ad and F, output noise gain, gate and warnings.
+    pub checks: f64,
+    /// Fixed-point tables and their proofs (0 without `[fixed_point]`).
+    pub fixed_point: f64,
+}
+
+/// Seconds since `start`, restarting it.
+fn lap(start: &mut std::time::Instant) -> f64 {
+    let now = std::time::Instant::now();
+    let dt = now.duration_since(*start).as_secs_f64();
+    *start = now;
+    dt
 }
 
 /// Steady-state Kalman filter quantities.
@@ -190,13 +220,18 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         }
     };
     let t = model.sample_period;
+    let mut clock = std::time::Instant::now();
+    let mut stage_seconds = StageSeconds::default();
     let sys = augment::Augmented::of(&model, origin)?;
-    let (ad, bd) = match model.plant.domain {
+    let (ad, bd, hold_accuracy) = match model.plant.domain {
         Domain::Continuous => {
-            numerics::zoh(&sys.a, &sys.b, t).map_err(fail("zero-order hold of (A, B)"))?
+            let (ad, bd, acc) = numerics::zoh_with_estimate(&sys.a, &sys.b, t)
+                .map_err(fail("zero-order hold of (A, B)"))?;
+            (ad, bd, Some(acc))
         }
-        Domain::Discrete => (sys.a.clone(), sys.b.clone()),
+        Domain::Discrete => (sys.a.clone(), sys.b.clone(), None),
     };
+    stage_seconds.hold = lap(&mut clock);
     let (cd, dd) = (sys.c.clone(), sys.d.clone());
     separability::check(origin, &sys, &ad, &cd)?;
     let mut early_warnings = Vec::new();
@@ -215,13 +250,17 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
                     eigenvalue.re, eigenvalue.im
                 ),
             ));
-            unobservable_report(&ad, &cd).map_err(fail("observability of (Ad, Cd)"))?
+            numerics::observability::observability_staircase(&ad, &cd)
+                .map_err(fail("observability of (Ad, Cd)"))?
         }
         Err(e) => return Err(fail("observability of (Ad, Cd)")(e)),
     };
+    stage_seconds.observability = lap(&mut clock);
     let plant_poles = numerics::eigenvalues("Ad", &ad).map_err(fail("eigenvalues of Ad"))?;
+    stage_seconds.checks = lap(&mut clock);
 
     let designed = gain::design(&model, &sys, origin, &ad, &bd, &cd, &dd)?;
+    stage_seconds.gain = lap(&mut clock);
     let error_poles = numerics::eigenvalues("F", &designed.f).map_err(fail("eigenvalues of F"))?;
     let spectral_radius = error_poles.iter().map(|z| z.norm()).fold(0.0, f64::max);
     if spectral_radius >= 1.0 {
@@ -261,9 +300,12 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         gate,
         output_noise_gain,
         fixed_point: None,
+        hold_accuracy,
+        stage_seconds,
         warnings: Vec::new(),
         model,
     };
+    design.stage_seconds.checks += lap(&mut clock);
     if let Some(spec) = &design.model.fixed_point {
         let state_names = design.state_names();
         let tables = crate::fixed_point::FloatTables {
@@ -299,6 +341,7 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         }
         design.fixed_point = Some(fixed);
     }
+    design.stage_seconds.fixed_point = lap(&mut clock);
     design.warnings = early_warnings;
     design
         .warnings
@@ -310,31 +353,8 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
             "the held observer has no separate correction step; only fused tables are emitted",
         ));
     }
+    design.stage_seconds.checks += lap(&mut clock);
     Ok(design)
-}
-
-/// Rank and singular values of the observability matrix when some mode is
-/// unobservable (the PBH analysis has refused it).
-fn unobservable_report(
-    ad: &DMatrix<f64>,
-    cd: &DMatrix<f64>,
-) -> Result<ObservabilityReport, NumericsError> {
-    let o = numerics::observability::observability_matrix(ad, cd)?;
-    // Capped iterations: nalgebra's plain singular_values() has no limit.
-    let singular_values = numerics::checks::singular_values("observability matrix", &o)?;
-    let top = singular_values.iter().copied().fold(0.0, f64::max);
-    let rank_tolerance = o.nrows().max(o.ncols()) as f64 * f64::EPSILON * top;
-    Ok(ObservabilityReport {
-        rank: singular_values
-            .iter()
-            .filter(|&&s| s > rank_tolerance)
-            .count(),
-        rank_tolerance,
-        singular_values,
-        condition: f64::INFINITY,
-        modes: Vec::new(),
-        warnings: Vec::new(),
-    })
 }
 
 /// FNV-1a, 64 bits (Fowler–Noll–Vo; offset basis and prime as published).

@@ -42,33 +42,26 @@ pub(super) fn process_noise_per_sample(
 /// For each output j: the standard deviation of (Cd x̂)_j in steady state when
 /// unit-variance white noise enters on output j alone, x̂⁺ = F x̂ + H_j w.
 ///
-/// The state covariance X = Σₖ Fᵏ H_j H_jᵀ (Fᵏ)ᵀ is summed by the doubling
-/// (Smith) iteration X ← X + Aᵢ X Aᵢᵀ, Aᵢ₊₁ = Aᵢ², which converges
-/// quadratically when ρ(F) < 1; it stops after 64 doublings at most.
+/// The variance is `Σₖ (c_j Fᵏ h_j)²` (c_j the row of Cd, h_j the column of
+/// H), summed over k < 2^L by doubling, which converges when ρ(F) < 1. With
+/// `Z = [Fⁱ h_j]` for i < 2^a and `Y = [c_j F^(m·2^a)]` for m < 2^b, the terms
+/// k < 2^(a+b) are the entries of `Y Z`; each doubling appends `Y·F^(2^(a+b))`
+/// to Y, with the powers `F^(2^i)` (repeated squaring) shared by all outputs.
+/// Once Y has more rows than states it is replaced by `G = YᵀY` and the
+/// doubling continues as the Smith iteration `G ← G + Aᵀ G A`. It stops when
+/// the appended rows (or the step of G) are below ε times what is already
+/// there, after 64 doublings at most. Cost per output: O(n²·2^a) plus
+/// O(n²·rows of Y) until the dense phase, instead of O(n³) per doubling.
 pub(super) fn output_noise_gain(
     f: &DMatrix<f64>,
     h: &DMatrix<f64>,
     cd: &DMatrix<f64>,
 ) -> Result<Vec<f64>, NumericsError> {
+    let mut powers = vec![f.clone()];
     (0..h.ncols())
         .map(|j| {
-            let hj = h.column(j);
-            let mut x = hj * hj.transpose();
-            let mut a = f.clone();
-            for _ in 0..64 {
-                let step = &a * &x * a.transpose();
-                let done = step.norm() <= f64::EPSILON * x.norm();
-                x += step;
-                if done {
-                    break;
-                }
-                a = &a * &a;
-            }
-            let cj = cd.row(j);
-            let variance = (cj * &x * cj.transpose())
-                .get((0, 0))
-                .copied()
-                .unwrap_or(f64::NAN);
+            let cj = cd.row(j).into_owned();
+            let variance = output_variance(&mut powers, &h.column(j).into_owned(), &cj);
             if variance.is_finite() {
                 Ok(variance.max(0.0).sqrt())
             } else {
@@ -80,4 +73,80 @@ pub(super) fn output_noise_gain(
             }
         })
         .collect()
+}
+
+/// log₂ of the number of right-hand terms `Fⁱ h` kept as columns of Z.
+const RIGHT_BITS: usize = 5;
+
+/// Most doublings of [`output_variance`]; only a termination guarantee.
+const MAX_DOUBLINGS: usize = 64;
+
+fn hstack(a: &DMatrix<f64>, b: &DMatrix<f64>) -> DMatrix<f64> {
+    let k = a.ncols();
+    DMatrix::from_fn(a.nrows(), k + b.ncols(), |r, c| {
+        if c < k { a[(r, c)] } else { b[(r, c - k)] }
+    })
+}
+
+fn vstack(a: &DMatrix<f64>, b: &DMatrix<f64>) -> DMatrix<f64> {
+    let k = a.nrows();
+    DMatrix::from_fn(k + b.nrows(), a.ncols(), |r, c| {
+        if r < k { a[(r, c)] } else { b[(r - k, c)] }
+    })
+}
+
+/// `Σₖ (c Fᵏ h)²` (see [`output_noise_gain`]).
+fn output_variance(
+    powers: &mut Vec<DMatrix<f64>>,
+    h: &nalgebra::DVector<f64>,
+    c: &nalgebra::RowDVector<f64>,
+) -> f64 {
+    let n = h.len();
+    let mut z = DMatrix::from_column_slice(n, 1, h.as_slice());
+    for i in 0..RIGHT_BITS {
+        let az = power(powers, i) * &z;
+        z = hstack(&z, &az);
+    }
+    let mut y = DMatrix::from_row_slice(1, n, c.as_slice());
+    let mut gram: Option<DMatrix<f64>> = None;
+    for level in RIGHT_BITS..RIGHT_BITS + MAX_DOUBLINGS {
+        let a = power(powers, level);
+        let done = match gram.as_mut() {
+            None => {
+                let ya = &y * a;
+                let done = ya.norm_squared() <= f64::EPSILON * y.norm_squared();
+                y = vstack(&y, &ya);
+                if y.nrows() > n {
+                    gram = Some(y.transpose() * &y);
+                }
+                done
+            }
+            Some(g) => {
+                let step = a.transpose() * &*g * a;
+                let done = step.norm() <= f64::EPSILON * g.norm();
+                *g += step;
+                done
+            }
+        };
+        if done {
+            break;
+        }
+    }
+    match gram {
+        Some(g) => (z.transpose() * g * &z).trace(),
+        None => (y * z).norm_squared(),
+    }
+}
+
+/// `F^(2^i)`, squaring the last one computed when needed.
+fn power(powers: &mut Vec<DMatrix<f64>>, i: usize) -> &DMatrix<f64> {
+    while powers.len() <= i {
+        let next = powers.last().map(|a| a * a);
+        match next {
+            Some(p) => powers.push(p),
+            None => break,
+        }
+    }
+    let last = powers.len().saturating_sub(1);
+    &powers[i.min(last)]
 }

@@ -17,10 +17,17 @@ const MAX_SWEEPS: usize = 200;
 /// Returns `D⁻¹ A D` (same eigenvalues as `a`). `a` must be square and finite
 /// (checked by the caller).
 pub(crate) fn balance(a: &DMatrix<f64>) -> DMatrix<f64> {
+    balance_with_scaling(a).0
+}
+
+/// Returns `(D⁻¹ A D, d)` with `d` the diagonal of `D` (powers of two, so
+/// `A = D (D⁻¹ A D) D⁻¹` is recovered exactly barring under/overflow).
+pub(crate) fn balance_with_scaling(a: &DMatrix<f64>) -> (DMatrix<f64>, Vec<f64>) {
     const RADIX: f64 = 2.0;
     const SQRDX: f64 = RADIX * RADIX;
     let n = a.nrows();
     let mut m = a.clone();
+    let mut d = vec![1.0; n];
     for _ in 0..MAX_SWEEPS {
         let mut done = true;
         for i in 0..n {
@@ -59,11 +66,14 @@ pub(crate) fn balance(a: &DMatrix<f64>) -> DMatrix<f64> {
                 for j in 0..n {
                     m[(j, i)] *= f;
                 }
+                if let Some(di) = d.get_mut(i) {
+                    *di *= f;
+                }
             }
         }
         if done {
             break;
         }
     }
-    m
+    (m, d)
 }

@@ -1,6 +1,6 @@
 //! Eigenvalues of general real matrices.
 //!
-//! Pipeline: Parlett–Reinsch balancing ([`super::balance`]), Householder
+//! Pipeline: Parlett–Reinsch balancing (`balance.rs`), Householder
 //! reduction to upper Hessenberg form (nalgebra's `Hessenberg`, a finite
 //! sequence of reflections), then the Francis implicit double-shift QR
 //! iteration (J. G. F. Francis, "The QR transformation", Comput. J. 4, 1961/62)

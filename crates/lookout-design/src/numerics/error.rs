@@ -218,6 +218,16 @@ pub enum NumericsError {
         /// Tolerance it had to meet.
         tolerance: f64,
     },
+    /// A matrix exponential failed its a-posteriori accuracy check (two
+    /// evaluations at different scalings disagree).
+    ExpmInaccurate {
+        /// Matrix name.
+        matrix: &'static str,
+        /// Estimated relative error, 1-norm.
+        estimate: f64,
+        /// Tolerance it had to meet.
+        tolerance: f64,
+    },
     /// The computed gain does not make the error dynamics stable.
     NotStabilising {
         /// Name of the closed-loop matrix (e.g. `"A - L C"`).
@@ -410,6 +420,14 @@ impl fmt::Display for NumericsError {
                 f,
                 "{equation}: relative residual {residual:e} exceeds {tolerance:e}"
             ),
+            E::ExpmInaccurate {
+                matrix,
+                estimate,
+                tolerance,
+            } => write!(
+                f,
+                "exp({matrix}) cannot be computed to the accuracy needed: estimated relative error {estimate:e} (1-norm) exceeds {tolerance:e}; the matrix is too badly scaled or too large (check units and sample period)"
+            ),
             E::NotStabilising {
                 matrix,
                 spectral_radius,
@@ -434,6 +452,16 @@ pub enum NumericsWarning {
         rank: usize,
         /// State dimension.
         required: usize,
+    },
+    /// The per-mode PBH test was not made (too many states for its O(n⁴)
+    /// cost and no lower bound from C); the staircase decided alone.
+    PbhNotChecked {
+        /// State dimension.
+        states: usize,
+        /// Largest dimension tested mode by mode.
+        limit: usize,
+        /// The staircase's condition figure.
+        condition: f64,
     },
     /// A mode is observable but only weakly (PBH margin small).
     WeaklyObservable {
@@ -475,6 +503,14 @@ impl fmt::Display for NumericsWarning {
             W::ObservabilityMatrixRankDeficient { rank, required } => write!(
                 f,
                 "observability matrix has numerical rank {rank} < {required} although every mode passes the PBH test (badly scaled states?)"
+            ),
+            W::PbhNotChecked {
+                states,
+                limit,
+                condition,
+            } => write!(
+                f,
+                "the PBH margin of each mode was not computed ({states} states > {limit}); observability rests on the staircase reduction alone (condition {condition:e})"
             ),
             W::WeaklyObservable {
                 index,
