@@ -57,6 +57,11 @@ pub fn formats(design: &Design) -> Vec<Format> {
 pub fn run_once(design: &Design, opts: &SimOptions, seed: u64) -> Result<RunResult, CliError> {
     let plant = TruePlant::of(design, opts.mismatch, seed)?;
     let (traj, warnings) = plant::record(design, &plant, opts, seed)?;
+    if let Some(v) = traj.truth.iter().chain(&traj.y).find(|v| !v.is_finite()) {
+        return Err(CliError::BadInput(format!(
+            "the simulated plant reaches {v} (not a finite f64): reduce --input, --process-noise, --measurement-noise, --disturbance or --outlier-size"
+        )));
+    }
     let x0: Vec<f64> = traj
         .truth
         .iter()
