@@ -105,6 +105,10 @@ fn output_row_of_1e154_designs_with_finite_numbers() {
 fn endless_model_file_stops_with_a_clear_error() {
     if Path::new("/dev/zero").exists() {
         refused(&lookout(&["design", "/dev/zero"]), "larger than");
+        refused(
+            &lookout(&["simulate", DEMO, "--input", "csv:/dev/zero"]),
+            "larger than",
+        );
     }
 }
 

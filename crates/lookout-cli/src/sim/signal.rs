@@ -160,7 +160,7 @@ impl Lfsr15 {
 }
 
 /// Largest `csv:` input read (bytes).
-pub const MAX_CSV_BYTES: u64 = 256 << 20;
+pub const MAX_CSV_BYTES: u64 = 64 << 20;
 
 /// Reads one row of `m` numbers per line; blank lines and lines starting
 /// with `#` are skipped, commas separate the columns.
