@@ -130,3 +130,25 @@ impl From<ScalarArg> for lookout_design::Scalar {
         }
     }
 }
+
+/// A usage error of the argument parser as one line (its first paragraph,
+/// without clap's own `error: ` prefix), pointing to `--help`.
+pub fn one_line(e: &clap::Error) -> String {
+    if e.kind() == clap::error::ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand {
+        return "no subcommand: design, emit or simulate (see lookout --help)".to_string();
+    }
+    let text = e.render().to_string();
+    let paragraph: Vec<&str> = text
+        .lines()
+        .map(str::trim)
+        .skip_while(|l| l.is_empty())
+        .take_while(|l| !l.is_empty())
+        .collect();
+    let joined = paragraph.join(" ");
+    let first = joined.strip_prefix("error: ").unwrap_or(&joined);
+    if first.is_empty() {
+        "bad arguments (see lookout --help)".to_string()
+    } else {
+        format!("{first} (see lookout --help)")
+    }
+}

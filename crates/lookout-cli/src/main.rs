@@ -19,14 +19,15 @@ use std::process::ExitCode;
 fn main() -> ExitCode {
     let args = match cli::Args::try_parse() {
         Ok(args) => args,
-        Err(e) => {
-            // clap prints help and version to stdout with success, usage errors to stderr.
+        // clap prints help and version to stdout with success.
+        Err(e) if !e.use_stderr() => {
             let _ = e.print();
-            return if e.use_stderr() {
-                ExitCode::from(2)
-            } else {
-                ExitCode::SUCCESS
-            };
+            return ExitCode::SUCCESS;
+        }
+        // Usage errors in the tool's own one-line shape.
+        Err(e) => {
+            eprintln!("lookout: error: {}", cli::one_line(&e));
+            return ExitCode::from(2);
         }
     };
     match run(args) {
@@ -50,8 +51,11 @@ fn run(args: cli::Args) -> Result<(), CliError> {
             Ok(write_stdout(text.as_bytes())?)
         }
         cli::Command::Simulate(sim_args) => {
-            let design = designed(&sim_args.model)?;
-            let text = sim::simulate(&design, &sim_args)?;
+            // The options are checked before the design's warnings are shown.
+            let design = design_file(&sim_args.model)?;
+            let opts = sim::prepare(&design, &sim_args)?;
+            warn(&design);
+            let text = sim::simulate(&design, &sim_args, &opts)?;
             Ok(write_stdout(text.as_bytes())?)
         }
         cli::Command::Emit {
@@ -62,9 +66,18 @@ fn run(args: cli::Args) -> Result<(), CliError> {
             let scalar = scalar.into();
             match output {
                 Some(path) => {
-                    let design = lookout_design::emit_file(&model, &path, scalar)?;
-                    warn(&design);
-                    eprintln!("lookout: wrote {}", path.display());
+                    let design = designed(&model)?;
+                    let text = lookout_design::tables_source(&design, scalar)?;
+                    let written = lookout_design::emit::write_file(&path, text.as_bytes())?;
+                    if written.through_link {
+                        eprintln!(
+                            "lookout: wrote {} (through the symbolic link {})",
+                            written.file.display(),
+                            path.display()
+                        );
+                    } else {
+                        eprintln!("lookout: wrote {}", path.display());
+                    }
                     Ok(())
                 }
                 None => {

@@ -251,7 +251,11 @@ pub fn design(d: &Design) -> String {
                 .and_then(|n| n.get(j))
                 .cloned()
                 .unwrap_or_else(|| format!("y{j}"));
-            format!("{name} {g:.3}")
+            if g.is_nan() {
+                format!("{name} not computable")
+            } else {
+                format!("{name} {g:.3}")
+            }
         })
         .collect();
     let _ = writeln!(

@@ -71,7 +71,14 @@ pub fn measure(
         let sum_sq: f64 = e.iter().map(|v| v * v).sum();
         rms_error.push((sum_sq / len as f64).sqrt());
         final_error.push(e.last().copied().unwrap_or(f64::NAN));
-        if let Some(k) = e.iter().rposition(|v| v.is_nan() || v.abs() > tol) {
+        // A band that is not finite (the f64 reference's error overflowed)
+        // cannot be settled in: never within it.
+        let outside = if tol.is_finite() {
+            e.iter().rposition(|v| v.is_nan() || v.abs() > tol)
+        } else {
+            len.checked_sub(1)
+        };
+        if let Some(k) = outside {
             last_outside = Some(last_outside.map_or(k, |l| l.max(k)));
         }
         let quarter = |q: usize| {

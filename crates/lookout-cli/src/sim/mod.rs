@@ -58,6 +58,11 @@ pub fn formats(design: &Design) -> Vec<Format> {
 pub fn run_once(design: &Design, opts: &SimOptions, seed: u64) -> Result<RunResult, CliError> {
     let plant = TruePlant::of(design, opts.mismatch, seed)?;
     let (traj, warnings) = plant::record(design, &plant, opts, seed)?;
+    if let Some(v) = traj.truth.iter().chain(&traj.y).find(|v| !v.is_finite()) {
+        return Err(CliError::BadInput(format!(
+            "the simulated plant reaches {v} (not a finite f64): reduce --input, --process-noise, --measurement-noise, --disturbance or --outlier-size"
+        )));
+    }
     let x0: Vec<f64> = traj
         .truth
         .iter()
@@ -108,24 +113,73 @@ pub fn run_once(design: &Design, opts: &SimOptions, seed: u64) -> Result<RunResu
     })
 }
 
-/// `lookout simulate`: returns what goes to standard output.
-pub fn simulate(design: &Design, args: &SimArgs) -> Result<String, CliError> {
+/// Largest memory the recorded time series of one run may take (bytes):
+/// the truth, inputs, readings and every format's estimates are kept for
+/// the metrics, the CSV and the plot.
+pub const MAX_SERIES_BYTES: u64 = 1 << 30;
+
+/// Checks the options of `lookout simulate` against the design, before
+/// anything is printed or simulated: every refusal names the option.
+pub fn prepare(design: &Design, args: &SimArgs) -> Result<SimOptions, CliError> {
     runtime::check_sizes(design)?;
     let opts = SimOptions::from_args(args, design.n(), design.m())?;
+    if opts.sweep.is_some() && (args.plot.is_some() || args.csv.is_some()) {
+        return Err(CliError::BadInput(
+            "--plot and --csv show one run: rerun the worst case the sweep reports with its --seed"
+                .into(),
+        ));
+    }
+    if let Some(path) = &args.plot {
+        plot::check_path(path, design.n())?;
+    }
+    check_memory(design, &opts, args.csv.is_some())?;
+    Ok(opts)
+}
+
+/// Refuses a run whose time series would not fit [`MAX_SERIES_BYTES`]
+/// (per run in parallel for a sweep), estimated before anything is allocated.
+fn check_memory(design: &Design, opts: &SimOptions, csv: bool) -> Result<(), CliError> {
+    let (n, m, p) = (design.n() as u64, design.m() as u64, design.p() as u64);
+    let formats = formats(design).len() as u64;
+    // f64 truth, inputs, readings and estimates, a flag per reading, and
+    // for --csv about 24 characters per number of the text.
+    let mut per_step = 8 * (n * (1 + formats) + m + p) + p;
+    if csv {
+        per_step += 24 * (n * (1 + 2 * formats) + 2);
+    }
+    let parallel = if opts.sweep.is_some() {
+        rayon::current_num_threads().max(1) as u64
+    } else {
+        1
+    };
+    let bytes = (opts.steps as u64 + 1)
+        .saturating_mul(per_step)
+        .saturating_mul(parallel);
+    if bytes > MAX_SERIES_BYTES {
+        let most = MAX_SERIES_BYTES / per_step.saturating_mul(parallel).max(1);
+        return Err(CliError::BadInput(format!(
+            "--steps {}: the run would need about {:.1} GiB for its time series (at most {} GiB); this model allows at most {} steps",
+            opts.steps,
+            bytes as f64 / (1u64 << 30) as f64,
+            MAX_SERIES_BYTES >> 30,
+            most.saturating_sub(1)
+        )));
+    }
+    Ok(())
+}
+
+/// `lookout simulate` with options checked by [`prepare`]: returns what
+/// goes to standard output.
+pub fn simulate(design: &Design, args: &SimArgs, opts: &SimOptions) -> Result<String, CliError> {
     if let Some(runs) = opts.sweep {
-        if args.plot.is_some() || args.csv.is_some() {
-            return Err(CliError::BadInput(
-                "--plot and --csv show one run: rerun the worst case the sweep reports with its --seed".into(),
-            ));
-        }
-        let summary = sweep::run(design, &opts, runs)?;
+        let summary = sweep::run(design, opts, runs)?;
         return Ok(if args.json {
-            output::sweep_json(design, &opts, &summary)
+            output::sweep_json(design, opts, &summary)
         } else {
-            output::sweep_text(design, &opts, &summary)
+            output::sweep_text(design, opts, &summary)
         });
     }
-    let result = run_once(design, &opts, opts.seed)?;
+    let result = run_once(design, opts, opts.seed)?;
     if let Some(path) = &args.csv {
         output::write_csv(path, design, &result)?;
     }
@@ -133,8 +187,8 @@ pub fn simulate(design: &Design, args: &SimArgs) -> Result<String, CliError> {
         plot::write(path, args.font.as_deref(), design, &result)?;
     }
     Ok(if args.json {
-        output::json(design, &opts, &result)
+        output::json(design, opts, &result)
     } else {
-        output::text(design, &opts, &result)
+        output::text(design, opts, &result)
     })
 }

@@ -133,9 +133,20 @@ impl SimOptions {
             None => None,
         };
         let mismatch = non_negative("mismatch", args.mismatch)?;
+        if let Some(v) = mismatch.filter(|v| *v > 1.0) {
+            return Err(bad(format!(
+                "--mismatch: must be at most 1 (each entry off by up to 100 %), got {v}"
+            )));
+        }
         let sweep = match args.sweep {
             Some(s) if s <= 0 => {
                 return Err(bad(format!("--sweep: must be a whole number > 0, got {s}")));
+            }
+            Some(s) if s as u64 > super::sweep::MAX_SWEEP as u64 => {
+                return Err(bad(format!(
+                    "--sweep: at most {} runs, got {s}",
+                    super::sweep::MAX_SWEEP
+                )));
             }
             Some(s) => {
                 Some(usize::try_from(s).map_err(|_| bad(format!("--sweep: {s} is too many")))?)

@@ -193,8 +193,9 @@ pub fn write_csv(path: &Path, design: &Design, r: &RunResult) -> Result<(), CliE
         }
         s.push('\n');
     }
-    std::fs::write(path, s)
-        .map_err(|e| CliError::Failure(format!("{}: cannot write: {e}", path.display())))
+    lookout_design::emit::write_file(path, s.as_bytes())
+        .map(|_| ())
+        .map_err(|e| CliError::Failure(e.to_string()))
 }
 
 /// The sweep report.

@@ -56,7 +56,9 @@ impl TruePlant {
         let (ad, bd) = match plant.domain {
             Domain::Continuous => lookout_design::numerics::zoh(&a, &b, design.model.sample_period)
                 .map_err(|e| {
-                    CliError::Failure(format!("zero-order hold of the true plant: {e}"))
+                    CliError::BadInput(format!(
+                        "--mismatch {mismatch}: the perturbed true plant cannot be sampled: {e}"
+                    ))
                 })?,
             Domain::Discrete => (a, b),
         };

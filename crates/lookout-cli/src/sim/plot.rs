@@ -25,6 +25,9 @@ const FONT_PATHS: &[&str] = &[
     "C:\\Windows\\Fonts\\arial.ttf",
 ];
 
+/// Largest font file read (bytes).
+const MAX_FONT_BYTES: u64 = 64 << 20;
+
 const WIDTH: u32 = 1400;
 const PANEL_HEIGHT: u32 = 260;
 
@@ -50,7 +53,11 @@ fn register_font(font: Option<&Path>) -> Result<(), CliError> {
             };
             let (path, bytes) = candidates
                 .iter()
-                .find_map(|p| std::fs::read(p).ok().map(|b| (*p, b)))
+                .find_map(|p| {
+                    lookout_design::emit::read_limited(p, MAX_FONT_BYTES)
+                        .ok()
+                        .map(|b| (*p, b))
+                })
                 .ok_or_else(|| match font {
                     Some(p) => format!("--font {}: cannot read it", p.display()),
                     None => "the plot needs a TrueType font: none of the usual system fonts was found; pass --font FILE.ttf".to_string(),
@@ -65,30 +72,76 @@ fn register_font(font: Option<&Path>) -> Result<(), CliError> {
         .map_err(CliError::BadInput)
 }
 
-/// Writes the plot; the format follows the file's extension.
+/// Most states one plot shows (one panel each; the image grows with them).
+pub const MAX_PLOT_STATES: usize = 64;
+
+/// Whether `--plot path` names a PNG (else an SVG) file; refused unless it
+/// ends in .svg or .png (either case) and the design has at most
+/// [`MAX_PLOT_STATES`] states.
+pub fn check_path(path: &Path, n: usize) -> Result<bool, CliError> {
+    let ext = path
+        .extension()
+        .and_then(|e| e.to_str())
+        .map(str::to_ascii_lowercase);
+    let png = match ext.as_deref() {
+        Some("svg") => false,
+        Some("png") => true,
+        _ => {
+            return Err(CliError::BadInput(format!(
+                "--plot {}: the file name must end in .svg or .png",
+                path.display()
+            )));
+        }
+    };
+    if n > MAX_PLOT_STATES {
+        return Err(CliError::BadInput(format!(
+            "--plot: {n} states are too many for one plot (at most {MAX_PLOT_STATES}); use --csv"
+        )));
+    }
+    Ok(png)
+}
+
+/// Writes the plot; the format follows the file's extension (either case).
+/// The image is drawn in memory and written whole through
+/// [`lookout_design::emit::write_file`] (never through a device, FIFO or
+/// directory; never half written).
 pub fn write(path: &Path, font: Option<&Path>, d: &Design, r: &RunResult) -> Result<(), CliError> {
-    register_font(font)?;
     let n = d.n();
+    let png = check_path(path, n)?;
+    register_font(font)?;
     // The right column holds two square pole charts of 460 px.
     let height = (PANEL_HEIGHT * n.max(2) as u32 + 60).max(2 * 460 + 60);
     let fail =
         |e: String| CliError::Failure(format!("{}: cannot draw the plot: {e}", path.display()));
-    match path.extension().and_then(|e| e.to_str()) {
-        Some("svg") => {
-            let root = SVGBackend::new(path, (WIDTH, height)).into_drawing_area();
+    let bytes = if png {
+        let mut rgb = vec![0_u8; WIDTH as usize * height as usize * 3];
+        {
+            let root = BitMapBackend::with_buffer(&mut rgb, (WIDTH, height)).into_drawing_area();
             draw(&root, d, r).map_err(fail)?;
-            root.present().map_err(|e| fail(e.to_string()))
+            root.present().map_err(|e| fail(e.to_string()))?;
         }
-        Some("png") => {
-            let root = BitMapBackend::new(path, (WIDTH, height)).into_drawing_area();
+        let mut out = Vec::new();
+        image::ImageEncoder::write_image(
+            image::codecs::png::PngEncoder::new(&mut out),
+            &rgb,
+            WIDTH,
+            height,
+            image::ColorType::Rgb8,
+        )
+        .map_err(|e| fail(format!("PNG encoding failed: {e}")))?;
+        out
+    } else {
+        let mut svg = String::new();
+        {
+            let root = SVGBackend::with_string(&mut svg, (WIDTH, height)).into_drawing_area();
             draw(&root, d, r).map_err(fail)?;
-            root.present().map_err(|e| fail(e.to_string()))
+            root.present().map_err(|e| fail(e.to_string()))?;
         }
-        _ => Err(CliError::BadInput(format!(
-            "--plot {}: the file name must end in .svg or .png",
-            path.display()
-        ))),
-    }
+        svg.into_bytes()
+    };
+    lookout_design::emit::write_file(path, &bytes)
+        .map(|_| ())
+        .map_err(|e| CliError::Failure(e.to_string()))
 }
 
 fn draw<DB: DrawingBackend>(

@@ -159,11 +159,14 @@ impl Lfsr15 {
     }
 }
 
+/// Largest `csv:` input read (bytes).
+pub const MAX_CSV_BYTES: u64 = 64 << 20;
+
 /// Reads one row of `m` numbers per line; blank lines and lines starting
 /// with `#` are skipped, commas separate the columns.
 fn read_csv(path: &Path, m: usize) -> Result<Vec<Vec<f64>>, CliError> {
     let name = path.display();
-    let text = std::fs::read_to_string(path)
+    let text = lookout_design::emit::read_text_limited(path, MAX_CSV_BYTES)
         .map_err(|e| CliError::BadInput(format!("--input csv:{name}: cannot read it: {e}")))?;
     let mut rows = Vec::new();
     for (index, line) in text.lines().enumerate() {

@@ -56,103 +56,148 @@ pub struct SweepSummary {
     pub skipped: Vec<(Format, String)>,
 }
 
-/// A run without its time series (only what the sweep keeps).
-fn digest(mut r: RunResult) -> RunResult {
-    r.traj.truth = Vec::new();
-    r.traj.u = Vec::new();
-    r.traj.y = Vec::new();
-    r.traj.valid = Vec::new();
-    for (run, _) in &mut r.formats {
-        run.estimate = Vec::new();
-    }
-    r
-}
-
 /// The seed of run `i`: run 0 is `--seed` itself, so the worst case of a
 /// sweep is reproduced by a single run with the seed it reports.
 pub fn run_seed(seed: u64, i: usize) -> u64 {
     seed.wrapping_add(i as u64)
 }
 
+/// Most runs a sweep makes.
+pub const MAX_SWEEP: usize = 1_000_000;
+
+/// A sweep expected to take longer than this (seconds) says so first.
+const ANNOUNCE_AFTER_S: f64 = 10.0;
+
 /// Runs the sweep; a progress line goes to stderr when it is a terminal.
+///
+/// Run 0 goes first, alone: it fixes the formats and skipped formats, and
+/// its duration gives the time estimate printed before a long sweep. The
+/// others run in parallel and are folded into the tallies as they finish,
+/// so memory does not grow with N.
 pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSummary, CliError> {
-    let done = AtomicUsize::new(0);
-    let show = std::io::stderr().is_terminal();
-    let shown = Mutex::new(0usize);
-    // Each run is reduced to its digest at once: a run's time series are
-    // not kept, so memory stays flat in N.
-    let results: Vec<Result<RunResult, CliError>> = (0..runs)
-        .into_par_iter()
-        .map(|i| {
-            let r = run_once(design, opts, run_seed(opts.seed, i)).map(digest);
-            let k = done.fetch_add(1, Ordering::Relaxed) + 1;
-            if show && (k * 50 / runs != (k - 1) * 50 / runs || k == runs) {
-                // Threads finish out of order: only a count above the one
-                // shown is drawn, so the bar never steps back after 100 %.
-                let mut last = shown.lock().unwrap_or_else(|p| p.into_inner());
-                if k > *last {
-                    *last = k;
-                    let bar = "#".repeat(k * 30 / runs);
-                    eprint!("\rsweep [{bar:<30}] {k}/{runs}");
-                    if k == runs {
-                        eprintln!();
-                    }
-                }
-            }
-            r
+    let started = std::time::Instant::now();
+    let first = run_once(design, opts, run_seed(opts.seed, 0))?;
+    let one = started.elapsed().as_secs_f64();
+    let threads = rayon::current_num_threads().max(1);
+    let estimate = one * (runs - 1) as f64 / threads as f64;
+    if estimate > ANNOUNCE_AFTER_S {
+        eprintln!(
+            "lookout: sweep of {runs} runs: about {estimate:.0} s (one run took {one:.3} s; {threads} threads)"
+        );
+    }
+    let skipped = first.skipped.clone();
+    let empty: Vec<FormatSummary> = first
+        .formats
+        .iter()
+        .map(|(run, _)| FormatSummary {
+            format: run.format,
+            stable: 0,
+            converged: 0,
+            worst: Vec::new(),
         })
         .collect();
-    let mut formats: Vec<FormatSummary> = Vec::new();
-    let mut skipped = Vec::new();
-    for (i, r) in results.into_iter().enumerate() {
-        let r = r?;
-        if i == 0 {
-            skipped = r.skipped.clone();
-            formats = r
-                .formats
-                .iter()
-                .map(|(run, _)| FormatSummary {
-                    format: run.format,
-                    stable: 0,
-                    converged: 0,
-                    worst: Vec::new(),
-                })
-                .collect();
-        }
-        for (summary, (_, m)) in formats.iter_mut().zip(&r.formats) {
-            summary.stable += usize::from(m.stable);
-            summary.converged += usize::from(m.converged);
-            let score = m
-                .final_error
-                .iter()
-                .zip(&r.tolerance)
-                .map(|(e, t)| {
-                    if e.is_finite() {
-                        e.abs() / t
-                    } else {
-                        f64::INFINITY
-                    }
-                })
-                .fold(0.0, f64::max);
-            summary.worst.push(WorstCase {
-                run: i,
-                seed: run_seed(opts.seed, i),
-                perturbation: r.perturbation,
-                final_error: m.final_error.clone(),
-                settling_step: m.settling_step,
-                converged: m.converged,
-                score,
-            });
-            // Worst first; ties by run index, so the order is reproducible.
-            summary
-                .worst
-                .sort_by(|a, b| b.score.total_cmp(&a.score).then(a.run.cmp(&b.run)));
-            summary.worst.truncate(WORST);
-        }
-    }
+    let progress = Progress::new(runs);
+    progress.tick();
+    let head = tally(&empty, 0, &first, opts);
+    let rest = (1..runs)
+        .into_par_iter()
+        .map(|i| {
+            let r = run_once(design, opts, run_seed(opts.seed, i));
+            progress.tick();
+            r.map(|r| tally(&empty, i, &r, opts))
+        })
+        .try_reduce(|| empty.clone(), |a, b| Ok(merge(a, b)))?;
     Ok(SweepSummary {
         runs,
-        formats,
+        formats: merge(head, rest),
         skipped,
     })
+}
+
+/// The tallies of one run (`empty` gives the formats).
+fn tally(
+    empty: &[FormatSummary],
+    i: usize,
+    r: &RunResult,
+    opts: &SimOptions,
+) -> Vec<FormatSummary> {
+    let mut formats = empty.to_vec();
+    for (summary, (_, m)) in formats.iter_mut().zip(&r.formats) {
+        summary.stable += usize::from(m.stable);
+        summary.converged += usize::from(m.converged);
+        let score = m
+            .final_error
+            .iter()
+            .zip(&r.tolerance)
+            .map(|(e, t)| {
+                if e.is_finite() {
+                    e.abs() / t
+                } else {
+                    f64::INFINITY
+                }
+            })
+            .fold(0.0, f64::max);
+        summary.worst.push(WorstCase {
+            run: i,
+            seed: run_seed(opts.seed, i),
+            perturbation: r.perturbation,
+            final_error: m.final_error.clone(),
+            settling_step: m.settling_step,
+            converged: m.converged,
+            score,
+        });
+    }
+    formats
+}
+
+/// Two tallies in one: counts added, the worst cases of both kept.
+fn merge(mut a: Vec<FormatSummary>, b: Vec<FormatSummary>) -> Vec<FormatSummary> {
+    for (x, y) in a.iter_mut().zip(b) {
+        x.stable += y.stable;
+        x.converged += y.converged;
+        x.worst.extend(y.worst);
+        // Worst first; ties by run index, so the order is reproducible
+        // whatever order the runs finished in.
+        x.worst
+            .sort_by(|p, q| q.score.total_cmp(&p.score).then(p.run.cmp(&q.run)));
+        x.worst.truncate(WORST);
+    }
+    a
+}
+
+/// The progress bar on stderr, drawn only when stderr is a terminal.
+struct Progress {
+    runs: usize,
+    show: bool,
+    done: AtomicUsize,
+    shown: Mutex<usize>,
+}
+
+impl Progress {
+    fn new(runs: usize) -> Self {
+        Self {
+            runs,
+            show: std::io::stderr().is_terminal(),
+            done: AtomicUsize::new(0),
+            shown: Mutex::new(0),
+        }
+    }
+
+    fn tick(&self) {
+        let runs = self.runs;
+        let k = self.done.fetch_add(1, Ordering::Relaxed) + 1;
+        if self.show && (k * 50 / runs != (k - 1) * 50 / runs || k == runs) {
+            // Threads finish out of order: only a count above the one
+            // shown is drawn, so the bar never steps back after 100 %.
+            let mut last = self.shown.lock().unwrap_or_else(|p| p.into_inner());
+            if k > *last {
+                *last = k;
+                let bar = "#".repeat(k * 30 / runs);
+                eprint!("\rsweep [{bar:<30}] {k}/{runs}");
+                if k == runs {
+                    eprintln!();
+                }
+            }
+        }
+    }
 }

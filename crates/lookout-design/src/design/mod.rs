@@ -23,6 +23,7 @@
 
 mod augment;
 mod error;
+mod finite;
 mod gain;
 mod noise;
 mod separability;
@@ -82,7 +83,8 @@ pub struct Design {
     pub gate: Option<GateDesign>,
     /// Standard deviation of each output's estimate C x̂ per unit standard
     /// deviation of white noise on that output (above 1: the observer passes
-    /// more measurement noise than the raw reading has).
+    /// more measurement noise than the raw reading has). NaN where it could
+    /// not be computed in f64 (a warning then says so).
     pub output_noise_gain: Vec<f64>,
     /// The fixed-point tables and their proofs, when the model has a
     /// `[fixed_point]` section.
@@ -194,14 +196,15 @@ pub fn design_file(path: &Path) -> Result<Design, DesignError> {
         || path.display().to_string(),
         |f| f.to_string_lossy().into_owned(),
     );
-    let text = std::fs::read_to_string(path).map_err(|e| {
-        DesignError::Model(crate::model::ModelError::new(
-            &origin,
-            "",
-            crate::model::ModelErrorKind::Io,
-            format!("cannot read {}: {e}", path.display()),
-        ))
-    })?;
+    let text =
+        crate::emit::read_text_limited(path, crate::model::MAX_MODEL_BYTES).map_err(|e| {
+            DesignError::Model(crate::model::ModelError::new(
+                &origin,
+                "",
+                crate::model::ModelErrorKind::Io,
+                format!("cannot read {}: {e}", path.display()),
+            ))
+        })?;
     design_text(&text, &origin)
 }
 
@@ -223,6 +226,17 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
     let mut clock = std::time::Instant::now();
     let mut stage_seconds = StageSeconds::default();
     let sys = augment::Augmented::of(&model, origin)?;
+    let n = sys.a.nrows();
+    if n > crate::model::MAX_STATES {
+        return Err(DesignError::Unsupported {
+            origin: origin.to_string(),
+            key: "plant.a",
+            message: format!(
+                "{n} estimated states (plant and disturbance states); at most {} are designed",
+                crate::model::MAX_STATES
+            ),
+        });
+    }
     let (ad, bd, hold_accuracy) = match model.plant.domain {
         Domain::Continuous => {
             let (ad, bd, acc) = numerics::zoh_with_estimate(&sys.a, &sys.b, t)
@@ -272,8 +286,7 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
             ),
         });
     }
-    let output_noise_gain = noise::output_noise_gain(&designed.f, &designed.h, &cd)
-        .map_err(fail("noise gain of the observer"))?;
+    let output_noise_gain = noise::output_noise_gain(&designed.f, &designed.h, &cd);
     let gate = match &model.observer.gate {
         None => None,
         Some(spec) => Some(gain::gate(origin, spec, designed.kalman.as_ref())?),
@@ -306,6 +319,9 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         model,
     };
     design.stage_seconds.checks += lap(&mut clock);
+    // Before the fixed-point stage (which scales by these numbers) and again
+    // at the end, over everything.
+    finite::check(&design)?;
     if let Some(spec) = &design.model.fixed_point {
         let state_names = design.state_names();
         let tables = crate::fixed_point::FloatTables {
@@ -342,6 +358,7 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         design.fixed_point = Some(fixed);
     }
     design.stage_seconds.fixed_point = lap(&mut clock);
+    early_warnings.extend(finite::subnormal_warnings(&design));
     design.warnings = early_warnings;
     design
         .warnings
@@ -354,6 +371,7 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         ));
     }
     design.stage_seconds.checks += lap(&mut clock);
+    finite::check(&design)?;
     Ok(design)
 }
 

@@ -4,7 +4,7 @@
 use super::DesignError;
 use super::augment::Augmented;
 use crate::model::{Domain, KalmanSpec, Model, NoiseDomain};
-use crate::numerics::{self, NumericsError};
+use crate::numerics;
 use nalgebra::DMatrix;
 
 /// Qd, the process noise covariance per sample: Van Loan's (1978) block
@@ -52,25 +52,28 @@ pub(super) fn process_noise_per_sample(
 /// the appended rows (or the step of G) are below ε times what is already
 /// there, after 64 doublings at most. Cost per output: O(n²·2^a) plus
 /// O(n²·rows of Y) until the dense phase, instead of O(n³) per doubling.
-pub(super) fn output_noise_gain(
-    f: &DMatrix<f64>,
-    h: &DMatrix<f64>,
-    cd: &DMatrix<f64>,
-) -> Result<Vec<f64>, NumericsError> {
+///
+/// h_j and c_j are normalised to unit length first (the result is
+/// |c_j| |h_j| times that of the unit vectors), so tiny or huge units do not
+/// underflow or overflow inside the sum. An entry is NaN when the sum cannot
+/// be formed in f64 (the transient growth of a strongly non-normal F
+/// overflows it); the caller reports it as not computable. F is stable
+/// whenever this is called: its spectral radius has been checked to be
+/// below 1.
+pub(super) fn output_noise_gain(f: &DMatrix<f64>, h: &DMatrix<f64>, cd: &DMatrix<f64>) -> Vec<f64> {
     let mut powers = vec![f.clone()];
     (0..h.ncols())
         .map(|j| {
-            let cj = cd.row(j).into_owned();
-            let variance = output_variance(&mut powers, &h.column(j).into_owned(), &cj);
-            if variance.is_finite() {
-                Ok(variance.max(0.0).sqrt())
-            } else {
-                Err(NumericsError::BadParameter {
-                    name: "noise gain",
-                    value: variance,
-                    condition: "finite (the error dynamics must be stable)",
-                })
+            let (h_norm, c_norm) = (h.column(j).norm(), cd.row(j).norm());
+            if h_norm == 0.0 || c_norm == 0.0 {
+                return 0.0;
             }
+            let hj = (h.column(j) / h_norm).into_owned();
+            let cj = (cd.row(j) / c_norm).into_owned();
+            let variance = output_variance(&mut powers, &hj, &cj);
+            // NaN when not finite: not computable.
+            let gain = variance.max(0.0).sqrt() * h_norm * c_norm;
+            if gain.is_finite() { gain } else { f64::NAN }
         })
         .collect()
 }

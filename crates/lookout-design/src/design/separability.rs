@@ -16,7 +16,7 @@
 use super::DesignError;
 use super::augment::Augmented;
 use crate::numerics::observability::PBH_TOLERANCE;
-use nalgebra::DMatrix;
+use nalgebra::{DMatrix, SVD};
 
 /// Iteration cap of the singular value decomposition (as in the numerics module).
 const SVD_MAX_ITER: usize = 10_000;
@@ -46,18 +46,25 @@ pub(super) fn check(
     m.view_mut((0, 0), (n, n))
         .copy_from(&(DMatrix::identity(n, n) - ad));
     m.view_mut((n, 0), (p, n)).copy_from(&(cd * scale));
-    let svd = m
-        .try_svd(false, true, f64::EPSILON, SVD_MAX_ITER)
-        .ok_or_else(|| DesignError::Numerics {
-            origin: origin.to_string(),
-            stage: "separability of the disturbance states (PBH at z = 1)",
-            source: crate::numerics::NumericsError::NoConvergence {
+    let fail = |source| DesignError::Numerics {
+        origin: origin.to_string(),
+        stage: "separability of the disturbance states (PBH at z = 1)",
+        source,
+    };
+    crate::numerics::checks::finite("[I − Ad; Cd]", &m).map_err(fail)?;
+    // Scaled by a power of two (exact) so nothing overflows inside the
+    // decomposition; unordered, because nalgebra's sort panics on a NaN.
+    let unit = crate::numerics::checks::power_of_two_near(m.amax().max(f64::MIN_POSITIVE));
+    let svd = SVD::try_new_unordered(m / unit, false, true, f64::EPSILON, SVD_MAX_ITER)
+        .filter(|svd| svd.singular_values.iter().all(|s| s.is_finite()))
+        .ok_or_else(|| {
+            fail(crate::numerics::NumericsError::NoConvergence {
                 routine: "singular value decomposition",
                 matrix: "[I − Ad; Cd]",
                 index: 0,
                 iterations: SVD_MAX_ITER,
                 estimate: f64::NAN,
-            },
+            })
         })?;
     let top = svd.singular_values.iter().copied().fold(0.0, f64::max);
     let Some(v_t) = svd.v_t.as_ref() else {

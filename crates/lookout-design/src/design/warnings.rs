@@ -93,7 +93,15 @@ pub(super) fn collect(design: &Design, numerics: Vec<NumericsWarning>) -> Vec<Wa
         ));
     }
     for (j, gain) in design.output_noise_gain.iter().enumerate() {
-        if *gain > 1.0 {
+        if gain.is_nan() {
+            out.push(Warning::new(
+                format!("observer (output {j})"),
+                format!(
+                    "the noise gain of output {j} is not computable: the sum of the error dynamics' powers overflows f64 (the error dynamics are stable, spectral radius {:.9}, but their transient growth is too large to sum)",
+                    design.spectral_radius
+                ),
+            ));
+        } else if *gain > 1.0 {
             out.push(Warning::new(
                 format!("observer (output {j})"),
                 format!(

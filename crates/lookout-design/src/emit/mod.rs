@@ -6,9 +6,11 @@
 //! they read back exactly. [`emit_file`] is the build-script entry point: it
 //! writes the whole file or nothing.
 
+mod file;
 mod fixed;
 mod literal;
 
+pub use file::{Written, read_limited, read_text_limited, write_file};
 pub use literal::Scalar;
 
 use crate::design::{Design, DesignError, design_file};
@@ -20,8 +22,10 @@ use std::path::Path;
 
 /// Designs the model at `model_path` and writes its tables to `out_path`.
 ///
-/// The file is written to a temporary name beside `out_path` and renamed
-/// into place, so a failure never leaves a partial file. Returns the design
+/// The file is written to a new temporary file beside `out_path` and renamed
+/// into place, so a failure never leaves a partial file; anything but a
+/// regular file (or a link to one) at `out_path` is refused (see
+/// [`write_file`]). Returns the design
 /// (its warnings are for the caller to show).
 ///
 /// In a firmware crate's `build.rs`:
@@ -52,23 +56,10 @@ pub fn emit_file(
     Ok(design)
 }
 
-/// Writes `bytes` to `path` through a temporary file in the same directory.
+/// Writes `bytes` to `path` through a temporary file in the same directory
+/// (see [`write_file`], which also says where the bytes went).
 pub fn write_atomically(path: &Path, bytes: &[u8]) -> Result<(), DesignError> {
-    let mut tmp = path.as_os_str().to_owned();
-    tmp.push(".partial");
-    let tmp = std::path::PathBuf::from(tmp);
-    std::fs::write(&tmp, bytes).map_err(|e| io_error(path, &e))?;
-    std::fs::rename(&tmp, path).map_err(|e| {
-        let _ = std::fs::remove_file(&tmp);
-        io_error(path, &e)
-    })
-}
-
-fn io_error(path: &Path, e: &io::Error) -> DesignError {
-    DesignError::Io {
-        path: path.display().to_string(),
-        message: e.to_string(),
-    }
+    write_file(path, bytes).map(|_| ())
 }
 
 /// Writes the Rust source of `design`'s tables in `scalar` to `out`.
@@ -86,10 +77,16 @@ pub fn tables_source(design: &Design, scalar: Scalar) -> Result<String, DesignEr
     source(design, scalar).ok_or_else(|| DesignError::Unsupported {
         origin: design.origin.clone(),
         key: "scalar",
-        message: format!(
-            "a table entry does not fit {}; emit with a wider scalar",
-            scalar.rust_type()
-        ),
+        message: match scalar {
+            Scalar::F32 => {
+                "a table entry does not fit f32; emit f64 tables (--scalar f64)".to_string()
+            }
+            // Not reached for a finished design (every number is checked
+            // finite), but never advise a wider type where there is none.
+            Scalar::F64 => {
+                "a table entry is not a finite f64; rescale the model's units".to_string()
+            }
+        },
     })
 }
 

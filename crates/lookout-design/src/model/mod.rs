@@ -107,6 +107,14 @@ mod reader;
 
 use std::path::Path;
 
+/// Largest model file read (bytes); a larger or endless file is refused.
+pub const MAX_MODEL_BYTES: u64 = 4 << 20;
+
+/// Most estimated states (the plant's and the disturbance states) a design
+/// takes: the dense O(n³) numerics and the tables stay within seconds and a
+/// few MiB below it.
+pub const MAX_STATES: usize = 100;
+
 pub use disturbances::{Disturbances, Entry, InputDisturbance, OutputBias, Shape};
 pub use error::{Location, ModelError, ModelErrorKind, ModelWarning};
 pub use fixed_point::{
@@ -215,14 +223,15 @@ impl Model {
             || path.display().to_string(),
             |f| f.to_string_lossy().into_owned(),
         );
-        let text = std::fs::read_to_string(path).map_err(|e| {
-            ModelError::new(
-                &origin,
-                "",
-                ModelErrorKind::Io,
-                format!("cannot read {}: {e}", path.display()),
-            )
-        })?;
+        let text =
+            crate::emit::read_text_limited(path, crate::model::MAX_MODEL_BYTES).map_err(|e| {
+                ModelError::new(
+                    &origin,
+                    "",
+                    ModelErrorKind::Io,
+                    format!("cannot read {}: {e}", path.display()),
+                )
+            })?;
         Model::from_toml_str(&text, &origin)
     }
 

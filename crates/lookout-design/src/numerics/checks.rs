@@ -152,22 +152,57 @@ pub(crate) fn positive_definite(matrix: &'static str, m: &DMatrix<f64>) -> Resul
 
 /// Singular values of `m` in descending order (capped Golub–Kahan iteration;
 /// nalgebra's values-only path, which we trust, unlike its vectors).
+///
+/// Panic-free on any input: non-finite entries are refused first; the matrix
+/// is scaled by a power of two (exact) so that its largest entry is about 1
+/// before the decomposition, so finite entries near the ends of the f64 range
+/// cannot overflow inside it; nalgebra's own sorting (which panics on a NaN)
+/// is avoided; and singular values that would not be finite once the scale
+/// is undone are refused as `NonFinite`.
 pub(crate) fn singular_values(matrix: &'static str, m: &DMatrix<f64>) -> Result<Vec<f64>> {
     if m.nrows() == 0 || m.ncols() == 0 {
         return Err(NumericsError::Empty { matrix });
     }
-    let svd = SVD::try_new(m.clone(), false, false, f64::EPSILON, SVD_MAX_ITER).ok_or(
-        NumericsError::NoConvergence {
-            routine: "singular value decomposition",
-            matrix,
-            index: 0,
-            iterations: SVD_MAX_ITER,
-            estimate: f64::NAN,
-        },
-    )?;
-    let mut s: Vec<f64> = svd.singular_values.iter().copied().collect();
+    finite(matrix, m)?;
+    let top = m.amax();
+    if top == 0.0 {
+        return Ok(vec![0.0; m.nrows().min(m.ncols())]);
+    }
+    let scale = power_of_two_near(top);
+    let no_convergence = |estimate| NumericsError::NoConvergence {
+        routine: "singular value decomposition",
+        matrix,
+        index: 0,
+        iterations: SVD_MAX_ITER,
+        estimate,
+    };
+    let svd = SVD::try_new_unordered(m / scale, false, false, f64::EPSILON, SVD_MAX_ITER)
+        .ok_or(no_convergence(f64::NAN))?;
+    let mut s = Vec::with_capacity(svd.singular_values.len());
+    for (i, &v) in svd.singular_values.iter().enumerate() {
+        if !v.is_finite() {
+            return Err(no_convergence(v));
+        }
+        let back = v * scale;
+        if !back.is_finite() {
+            return Err(NumericsError::NonFinite {
+                matrix,
+                row: i,
+                col: i,
+                value: back,
+            });
+        }
+        s.push(back);
+    }
     s.sort_by(|a, b| b.total_cmp(a));
     Ok(s)
+}
+
+/// The power of two nearest above `x` (finite, > 0), clamped to the normal
+/// range, so that dividing by it is exact and brings `x` into (0.5, 1].
+pub(crate) fn power_of_two_near(x: f64) -> f64 {
+    let e = x.log2().ceil().clamp(-1020.0, 1020.0);
+    2.0_f64.powi(e as i32)
 }
 
 /// Real `2r × 2c` matrix `[[Re, −Im], [Im, Re]]` of a complex `r × c` matrix:

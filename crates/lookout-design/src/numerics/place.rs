@@ -92,6 +92,12 @@ pub fn place_observer_poles(
 
 /// Observer gain `L` with `eig(A − L C) = poles`; `a` n×n, `c` p×n of full row
 /// rank, `(A, C)` observable, `poles` of length n closed under conjugation.
+///
+/// Each output (row of C) is first scaled by a power of two (exact) so that
+/// its largest entry is about 1, and the gain's columns are scaled back:
+/// with C' = D C, A − L' C' = A − (L' D) C. An output measured in tiny or
+/// huge units (c = 1e154) thus places like any other instead of overflowing
+/// inside the eigenvector solve.
 pub fn place_observer_poles_with(
     a: &DMatrix<f64>,
     c: &DMatrix<f64>,
@@ -100,6 +106,33 @@ pub fn place_observer_poles_with(
 ) -> Result<Placement> {
     let n = checks::square("A", a)?;
     checks::shape("C", c, usize::MAX, n)?;
+    let row_scale: Vec<f64> = c
+        .row_iter()
+        .map(|r| {
+            let top = r.amax();
+            if top > 0.0 {
+                1.0 / checks::power_of_two_near(top)
+            } else {
+                1.0
+            }
+        })
+        .collect();
+    let scaled_c = DMatrix::from_fn(c.nrows(), n, |i, j| c[(i, j)] * row_scale[i]);
+    let mut placement = place_scaled(a, &scaled_c, poles, opts)?;
+    for (j, s) in row_scale.iter().enumerate() {
+        placement.gain.column_mut(j).scale_mut(*s);
+    }
+    checks::finite("L", &placement.gain)?;
+    Ok(placement)
+}
+
+fn place_scaled(
+    a: &DMatrix<f64>,
+    c: &DMatrix<f64>,
+    poles: &[C64],
+    opts: &PlacementOptions,
+) -> Result<Placement> {
+    let n = a.nrows();
     let p = c.nrows();
     let sv = checks::singular_values("C", c)?;
     let tol = n.max(p) as f64 * f64::EPSILON * sv.first().copied().unwrap_or(0.0);
