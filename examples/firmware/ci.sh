@@ -88,7 +88,7 @@ too_big=0
 # the runtime's helpers of that size (not the firmware's wrapper).
 for pattern in \
     'FusedObserver<f32, 4, 1, 2>>::step|Gate<f32, 2>>::accepts|lookout::[a-z_:]+::<f32, 4, 1, 2>' \
-    'FixedFusedObserver<lookout::fixed::format::Q31, 4, 1, 2>>::step|FixedGate<lookout::fixed::format::Q31, 2>>::accepts|lookout::[a-z_:]+::<lookout::fixed::format::Q31, 4, 1, 2>'; do
+    'FixedFusedObserver<lookout::fixed::format::Q31, 4, 1, 2(, lookout::fixed::arith::Exact)?>>::(step|stand_in)|FixedGate<lookout::fixed::format::Q31, 2>>::accepts|lookout::[a-z_:]+::<lookout::fixed::format::Q31, 4, 1, 2>'; do
     size=0
     while read -r _ hex _ name; do
         size=$((size + 16#$hex))

@@ -3,7 +3,7 @@
 //! panic, this does not link.
 
 use lookout::{
-    ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
+    Accumulation, ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorObserver,
     FixedPredictorTables, FusedObserver, FusedTables, Matrix, Plant, PredictorObserver,
     PredictorTables, Q15, Q31, Real, Scales, Status,
@@ -99,28 +99,28 @@ macro_rules! fixed_checks {
             const P: usize = $p;
 
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn predictor_step(o: &mut FixedPredictorObserver<'_, Q, N, M, P>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
+            pub fn predictor_step<K: Accumulation>(o: &mut FixedPredictorObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
                 o.step_masked(u, y, v)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn predictor_predict(o: &mut FixedPredictorObserver<'_, Q, N, M, P>, u: &[Q; M]) -> Status {
+            pub fn predictor_predict<K: Accumulation>(o: &mut FixedPredictorObserver<'_, Q, N, M, P, K>, u: &[Q; M]) -> Status {
                 o.predict(u)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn current_step(o: &mut FixedCurrentObserver<'_, Q, N, M, P>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
+            pub fn current_step<K: Accumulation>(o: &mut FixedCurrentObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
                 o.step_masked(u, y, v)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn current_split(o: &mut FixedCurrentObserver<'_, Q, N, M, P>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
+            pub fn current_split<K: Accumulation>(o: &mut FixedCurrentObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
                 o.correct(u, y, v);
                 o.predict(u)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn fused_step(o: &mut FixedFusedObserver<'_, Q, N, M, P>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
+            pub fn fused_step<K: Accumulation>(o: &mut FixedFusedObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
                 o.step_masked(u, y, v)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn fused_predict(o: &mut FixedFusedObserver<'_, Q, N, M, P>, u: &[Q; M]) -> Status {
+            pub fn fused_predict<K: Accumulation>(o: &mut FixedFusedObserver<'_, Q, N, M, P, K>, u: &[Q; M]) -> Status {
                 o.predict(u)
             }
 
@@ -155,6 +155,20 @@ macro_rules! fixed_checks {
                 black_box(fused_step(&mut fo, &u, &y, v));
                 black_box(fused_predict(&mut fo, &u));
                 black_box((po.estimate(), co.filtered(), fo.estimate()));
+                // The plain multiply-accumulate kernels, on the same tables
+                // when they pass the headroom check.
+                if let (Ok(pt), Ok(ct), Ok(ft)) = (black_box(pt).check(), black_box(ct).check(), black_box(ft).check()) {
+                    let mut po = FixedPredictorObserver::proven(&pt, [seed; N]);
+                    let mut co = FixedCurrentObserver::proven(&ct, [seed; N]);
+                    let mut fo = FixedFusedObserver::proven(&ft, [seed; N]);
+                    black_box(predictor_step(&mut po, &u, &y, v));
+                    black_box(predictor_predict(&mut po, &u));
+                    black_box(current_step(&mut co, &u, &y, v));
+                    black_box(current_split(&mut co, &u, &y, v));
+                    black_box(fused_step(&mut fo, &u, &y, v));
+                    black_box(fused_predict(&mut fo, &u));
+                    black_box((po.estimate(), co.filtered(), fo.estimate()));
+                }
             }
         }
     };

@@ -189,21 +189,21 @@ fn conveyor(counter: &cost::Counter) -> bool {
         &scenario,
         TOL_Q31,
         // Emitted by lookout-design from conveyor.toml's [fixed_point].
-        FixedPredictorObserver::new(&f32::conveyor::PREDICTOR_Q31, [lookout::Q31(0); 2]),
+        FixedPredictorObserver::proven(&f32::conveyor::PREDICTOR_Q31, [lookout::Q31(0); 2]),
     );
     ok &= check(
         counter,
         "conveyor-fused",
         &scenario,
         TOL_Q31,
-        FixedFusedObserver::new(&f32::conveyor::FUSED_Q31, [lookout::Q31(0); 2]),
+        FixedFusedObserver::proven(&f32::conveyor::FUSED_Q31, [lookout::Q31(0); 2]),
     );
     ok &= check(
         counter,
         "conveyor-fused",
         &scenario,
         TOL_Q15,
-        FixedFusedObserver::new(&q::FUSED_Q15, [lookout::Q15(0); 2]),
+        FixedFusedObserver::proven(&q::FUSED_Q15, [lookout::Q15(0); 2]),
     );
     // The Kalman design gates innovations beyond the 99.9 % chi-square
     // quantile (3.29 standard deviations of the innovation, 2.0 mrad here), so
@@ -254,21 +254,21 @@ fn two_mass(counter: &cost::Counter) -> bool {
         &scenario,
         TOL_Q31,
         // Emitted by lookout-design from two_mass.toml's [fixed_point].
-        FixedFusedObserver::new(&f32::two_mass::FUSED_Q31, [lookout::Q31(0); 4]),
+        FixedFusedObserver::proven(&f32::two_mass::FUSED_Q31, [lookout::Q31(0); 4]),
     );
     ok &= check(
         counter,
         "two-mass-fused",
         &scenario,
         TOL_Q15,
-        FixedFusedObserver::new(&q::FUSED_Q15, [lookout::Q15(0); 4]),
+        FixedFusedObserver::proven(&q::FUSED_Q15, [lookout::Q15(0); 4]),
     );
     ok
 }
 
 /// The heated block's cost line (its check is the checksum above).
 fn heated_block_cost(counter: &cost::Counter) -> bool {
-    let mut o = FixedPredictorObserver::new(&heated_block::TABLES, [lookout::Q31(0); 2]);
+    let mut o = FixedPredictorObserver::proven(&heated_block::TABLES, [lookout::Q31(0); 2]);
     let (u, y, _) = heated_block::inputs(0);
     let per_step = counter.per_step(&mut o, &u, &y);
     let stack = stack::used_by(|| cost::one_step(&mut o, &u, &y));

@@ -19,6 +19,15 @@ pub trait Wide: Copy + Ord + Debug + core::hash::Hash + sealed::Sealed {
     const MAX: Self;
     /// `self + other`, saturating.
     fn sat_add(self, other: Self) -> Self;
+    /// One.
+    const ONE: Self;
+    /// Half the width in bits: 16 or 32.
+    const HALF_BITS: u32;
+    /// `self >> shift`, arithmetic, for `shift` below the width.
+    fn shr(self, shift: u32) -> Self;
+    /// `self + other`, wrapping: only for sums proven in range (tables
+    /// with [headroom](crate::Proven)), where it equals the saturating add.
+    fn add_exact(self, other: Self) -> Self;
     /// `self − other`, saturating.
     fn sat_sub(self, other: Self) -> Self;
     /// `self · other`, saturating.
@@ -148,9 +157,19 @@ macro_rules! wide {
         impl Wide for $w {
             const ZERO: Self = 0;
             const MAX: Self = <$w>::MAX;
+            const ONE: Self = 1;
+            const HALF_BITS: u32 = <$w>::BITS / 2;
+            #[inline(always)]
+            fn shr(self, shift: u32) -> Self {
+                self.wrapping_shr(shift)
+            }
             #[inline(always)]
             fn sat_add(self, other: Self) -> Self {
                 self.saturating_add(other)
+            }
+            #[inline(always)]
+            fn add_exact(self, other: Self) -> Self {
+                self.wrapping_add(other)
             }
             #[inline(always)]
             fn sat_sub(self, other: Self) -> Self {
@@ -188,8 +207,42 @@ macro_rules! wide {
 wide!(i32);
 wide!(i64);
 
+/// The exact product of two Q15 words: |a · b| ≤ 2³⁰, so it never wraps.
+#[inline(always)]
+fn mul_i16(a: i16, b: i16) -> i32 {
+    i32::from(a).wrapping_mul(i32::from(b))
+}
+
+/// The exact product of two Q31 words: |a · b| ≤ 2⁶², so it never wraps.
+/// Where the core has a 32 × 32 → 64 multiply (`smull`, `smlal`; RISC-V
+/// `mul` + `mulh`) the compiler emits it for this.
+#[cfg(not(lookout_no_long_multiply))]
+#[inline(always)]
+fn mul_i32(a: i32, b: i32) -> i64 {
+    i64::from(a).wrapping_mul(i64::from(b))
+}
+
+/// The exact product of two Q31 words on Armv6-M (Cortex-M0/M0+), whose
+/// only multiply is 32 × 32 → 32 (`muls`): from four 16 × 16 products
+/// instead of the general 64 × 64 multiply helper (`__aeabi_lmul`), which
+/// the plain i64 product would call. With a = aₕ·2¹⁶ + aₗ (aₕ signed, aₗ in
+/// [0, 2¹⁶)), a·b = aₕbₕ·2³² + (aₕbₗ + aₗbₕ)·2¹⁶ + aₗbₗ; each partial
+/// product fits 32 bits (|aₕbₕ| ≤ 2³⁰, |aₕbₗ| < 2³¹, aₗbₗ < 2³² unsigned)
+/// and the sum is exact in i64 (|a·b| ≤ 2⁶²), so the wrapping forms never
+/// wrap.
+#[cfg(lookout_no_long_multiply)]
+#[inline(always)]
+fn mul_i32(a: i32, b: i32) -> i64 {
+    let (ah, al) = (a >> 16, a & 0xffff);
+    let (bh, bl) = (b >> 16, b & 0xffff);
+    let high = i64::from(ah.wrapping_mul(bh));
+    let mid = i64::from(ah.wrapping_mul(bl)).wrapping_add(i64::from(al.wrapping_mul(bh)));
+    let low = i64::from(al.cast_unsigned().wrapping_mul(bl.cast_unsigned()));
+    (high << 32).wrapping_add(mid << 16).wrapping_add(low)
+}
+
 macro_rules! q_format {
-    ($(#[$doc:meta])* $name:ident, $word:ty, $acc:ty, $frac:literal) => {
+    ($(#[$doc:meta])* $name:ident, $word:ty, $acc:ty, $frac:literal, $mul:ident) => {
         $(#[$doc])*
         #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, PartialOrd, Ord, Hash)]
         pub struct $name(pub $word);
@@ -203,8 +256,7 @@ macro_rules! q_format {
             const MAX: Self = Self(<$word>::MAX);
             #[inline(always)]
             fn mul_wide(self, other: Self) -> $acc {
-                // |a · b| ≤ 2^(2F) < the accumulator's MAX: never wraps.
-                <$acc>::from(self.0).wrapping_mul(<$acc>::from(other.0))
+                $mul(self.0, other.0)
             }
             #[inline(always)]
             fn widen(self) -> $acc {
@@ -286,10 +338,10 @@ macro_rules! q_format {
 q_format!(
     /// A Q15 value: the `i16` q stands for q · 2⁻¹⁵ of its signal's scale
     /// (see the [number format](Fixed)).
-    Q15, i16, i32, 15
+    Q15, i16, i32, 15, mul_i16
 );
 q_format!(
     /// A Q31 value: the `i32` q stands for q · 2⁻³¹ of its signal's scale
     /// (see the [number format](Fixed)).
-    Q31, i32, i64, 31
+    Q31, i32, i64, 31, mul_i32
 );
