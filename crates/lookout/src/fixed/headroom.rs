@@ -44,9 +44,10 @@ use core::marker::PhantomData;
 ///     Some(t) => t,
 ///     None => panic!("TABLES: a row breaks the accumulator headroom rule"),
 /// };
+/// // Entries 2¹⁴ with the row exponent 1 stand for 1: x⁺ = x + u + y.
 /// let mut observer = FixedFusedObserver::proven(&TABLES, [Q15(0)]);
 /// observer.step(&[Q15(100)], &[Q15(200)]);
-/// assert_eq!(observer.estimate(), &[Q15(150)]);
+/// assert_eq!(observer.estimate(), &[Q15(300)]);
 /// ```
 ///
 /// A generated table whose [F G H] row sums to more than 2^(F+1) − 1 does
