@@ -68,7 +68,6 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
     /// no gate that is the fast path's update, reached when only the sum of
     /// the inputs overflowed). Kept out of line so the fast path keeps its
     /// registers.
-    #[cold]
     #[inline(never)]
     fn step_checked(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
         if !all_finite(u) {

@@ -22,8 +22,13 @@ pub(crate) fn plain_step<T: Real, const M: usize, const P: usize>(
     requested: ChannelMask,
 ) -> bool {
     let all = ChannelMask::all(P);
-    let sum = u.iter().chain(y.iter()).fold(T::ZERO, |s, &v| s + v);
-    !gated && requested.and(all) == all && sum.is_finite()
+    let sum_finite = || {
+        u.iter()
+            .chain(y.iter())
+            .fold(T::ZERO, |s, &v| s + v)
+            .is_finite()
+    };
+    !gated && requested.and(all) == all && sum_finite()
 }
 
 /// The status of a step that used every channel.
@@ -39,9 +44,8 @@ pub(crate) const fn all_used<const P: usize>() -> Status {
 
 /// The innovation and status of a step whose inputs are checked one by
 /// one ([`innovation`] after refusing a non-finite input); `None` when the
-/// input is refused. Out of line: the fast path of the steps skips it.
-#[cold]
-#[inline(never)]
+/// input is refused.
+#[inline(always)]
 pub(crate) fn checked_innovation<T: Real, const N: usize, const M: usize, const P: usize>(
     c: &Matrix<T, P, N>,
     d: &Matrix<T, P, M>,

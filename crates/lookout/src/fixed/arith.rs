@@ -98,16 +98,21 @@ pub(crate) trait Kernels: Accumulation {
     /// headroom ([`Exact`]) and saturates otherwise.
     #[inline(always)]
     fn round<Q: Fixed>(acc: Q::Acc, exp: i8) -> Q::Acc {
-        let shift = row_shift::<Q>(exp);
         let half = <Q::Acc as Wide>::HALF_BITS;
-        if (1..half).contains(&shift) {
-            // The mask changes nothing here (shift − 1 < half) but tells
-            // the compiler so: a 64-bit shift by less than 32 is three
-            // instructions on a 32-bit core, not a branchy general one.
-            let k = shift.wrapping_sub(1) & half.wrapping_sub(1);
-            Self::add(acc.shr(k), <Q::Acc as Wide>::ONE).shr(1)
-        } else {
-            acc.round_shr(shift)
+        // k − 1 = F − exp − 1, in i32 (exp is an i8, F at most 31: exact).
+        let k_less_one = i32::try_from(Q::FRAC)
+            .unwrap_or(0)
+            .wrapping_sub(i32::from(exp))
+            .wrapping_sub(1);
+        match u32::try_from(k_less_one) {
+            Ok(k) if k < half.wrapping_sub(1) => {
+                // The mask changes nothing (k < half) but tells the
+                // compiler so: a 64-bit shift by less than 32 is three
+                // instructions on a 32-bit core, not a branchy general one.
+                let k = k & half.wrapping_sub(1);
+                Self::add(acc.shr(k), <Q::Acc as Wide>::ONE).shr(1)
+            }
+            _ => acc.round_shr(row_shift::<Q>(exp)),
         }
     }
 }
