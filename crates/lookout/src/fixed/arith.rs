@@ -106,11 +106,7 @@ pub(crate) trait Kernels: Accumulation {
             .wrapping_sub(1);
         match u32::try_from(k_less_one) {
             Ok(k) if k < half.wrapping_sub(1) => {
-                // The mask changes nothing (k < half) but tells the
-                // compiler so: a 64-bit shift by less than 32 is three
-                // instructions on a 32-bit core, not a branchy general one.
-                let k = k & half.wrapping_sub(1);
-                Self::add(acc.shr(k), <Q::Acc as Wide>::ONE).shr(1)
+                Self::add(acc.shr_below_half(k), <Q::Acc as Wide>::ONE).shr(1)
             }
             _ => acc.round_shr(row_shift::<Q>(exp)),
         }

@@ -25,6 +25,9 @@ pub trait Wide: Copy + Ord + Debug + core::hash::Hash + sealed::Sealed {
     const HALF_BITS: u32;
     /// `self >> shift`, arithmetic, for `shift` below the width.
     fn shr(self, shift: u32) -> Self;
+    /// `self >> shift`, arithmetic, for `shift` below half the width
+    /// (larger shifts are taken modulo half the width).
+    fn shr_below_half(self, shift: u32) -> Self;
     /// `self + other`, wrapping: only for sums proven in range (tables
     /// with [headroom](crate::Proven)), where it equals the saturating add.
     fn add_exact(self, other: Self) -> Self;
@@ -151,8 +154,30 @@ pub trait Fixed: Copy + Ord + Debug + Default + ConstZero + sealed::Sealed {
     fn from_i64_saturating(value: i64) -> Self;
 }
 
+/// `value >> shift` for shift < 16 (taken modulo 16).
+#[inline(always)]
+fn shr_below_half_i32(value: i32, shift: u32) -> i32 {
+    value.wrapping_shr(shift & 15)
+}
+
+/// `value >> shift` for shift < 32 (taken modulo 32), written on the two
+/// 32-bit halves, which a 32-bit core shifts in five instructions (the
+/// compiler's general 64-bit shift also handles shifts of 32 and more,
+/// with a conditional block). The high half's bits enter the low half as
+/// (high << 1) << (31 − shift), which stays defined at shift 0.
+#[inline(always)]
+fn shr_below_half_i64(value: i64, shift: u32) -> i64 {
+    let k = shift & 31;
+    let (lo, hi) = (value as u32, value.wrapping_shr(32) as i32);
+    let low = lo.wrapping_shr(k)
+        | (hi as u32)
+            .wrapping_shl(1)
+            .wrapping_shl(31_u32.wrapping_sub(k));
+    (i64::from(hi.wrapping_shr(k)) << 32) | i64::from(low)
+}
+
 macro_rules! wide {
-    ($w:ty) => {
+    ($w:ty, $shr_below_half:ident) => {
         impl sealed::Sealed for $w {}
         impl Wide for $w {
             const ZERO: Self = 0;
@@ -162,6 +187,10 @@ macro_rules! wide {
             #[inline(always)]
             fn shr(self, shift: u32) -> Self {
                 self.wrapping_shr(shift)
+            }
+            #[inline(always)]
+            fn shr_below_half(self, shift: u32) -> Self {
+                $shr_below_half(self, shift)
             }
             #[inline(always)]
             fn sat_add(self, other: Self) -> Self {
@@ -204,8 +233,8 @@ macro_rules! wide {
     };
 }
 
-wide!(i32);
-wide!(i64);
+wide!(i32, shr_below_half_i32);
+wide!(i64, shr_below_half_i64);
 
 /// The exact product of two Q15 words: |a · b| ≤ 2³⁰, so it never wraps.
 #[inline(always)]
