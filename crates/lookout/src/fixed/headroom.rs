@@ -53,7 +53,7 @@ use core::marker::PhantomData;
 /// A generated table whose [F G H] row sums to more than 2^(F+1) − 1 does
 /// not compile (the `const` evaluation of the static fails):
 ///
-/// ```compile_fail
+/// ```compile_fail,E0080
 /// use lookout::{FixedFusedTables, FixedOutputMap, Matrix, Proven, Q15, Scales};
 /// const BIG: Q15 = Q15(i16::MAX);
 /// static TABLES: Proven<FixedFusedTables<Q15, 1, 1, 1>> = match (FixedFusedTables {
