@@ -1,6 +1,6 @@
 //! The current-form (filter-form) observer, e.g. a steady-state Kalman filter.
 
-use crate::measurement::{all_finite, all_used, checked_innovation, plain_innovation, plain_step};
+use crate::measurement::{all_finite, all_used, innovation, plain_innovation, plain_step};
 use crate::{ChannelMask, CurrentTables, Outcome, Real, Status};
 
 /// Discrete current-form observer: measurement update, then time update.
@@ -78,11 +78,10 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
                 plain_innovation(&plant.c, &plant.d, x, u, y),
                 all_used::<P>(),
             )
+        } else if all_finite(u) {
+            innovation(&plant.c, &plant.d, gate, x, u, y, valid)
         } else {
-            match checked_innovation(&plant.c, &plant.d, gate, x, u, y, valid) {
-                Some(checked) => checked,
-                None => return Status::rejected_input(P),
-            }
+            return Status::rejected_input(P);
         };
         self.filtered = self.predicted;
         if status.corrected() {

@@ -42,25 +42,6 @@ pub(crate) const fn all_used<const P: usize>() -> Status {
     }
 }
 
-/// The innovation and status of a step whose inputs are checked one by
-/// one ([`innovation`] after refusing a non-finite input); `None` when the
-/// input is refused.
-#[inline(always)]
-pub(crate) fn checked_innovation<T: Real, const N: usize, const M: usize, const P: usize>(
-    c: &Matrix<T, P, N>,
-    d: &Matrix<T, P, M>,
-    gate: Option<&Gate<T, P>>,
-    x: &[T; N],
-    u: &[T; M],
-    y: &[T; P],
-    requested: ChannelMask,
-) -> Option<([T; P], Status)> {
-    if !all_finite(u) {
-        return None;
-    }
-    Some(innovation(c, d, gate, x, u, y, requested))
-}
-
 /// r = y − C x − D u on every channel (the fast path's innovation: the same
 /// operations, in the same order, as [`innovation`]'s with every channel
 /// used).

@@ -1,6 +1,6 @@
 //! The predictor (Luenberger) observer.
 
-use crate::measurement::{all_used, checked_innovation, plain_innovation, plain_step};
+use crate::measurement::{all_finite, all_used, innovation, plain_innovation, plain_step};
 use crate::{ChannelMask, PredictorTables, Real, Status};
 
 /// Discrete predictor (Luenberger) observer.
@@ -64,11 +64,10 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
                 plain_innovation(&plant.c, &plant.d, &self.x, u, y),
                 all_used::<P>(),
             )
+        } else if all_finite(u) {
+            innovation(&plant.c, &plant.d, gate, &self.x, u, y, valid)
         } else {
-            match checked_innovation(&plant.c, &plant.d, gate, &self.x, u, y, valid) {
-                Some(checked) => checked,
-                None => return Status::rejected_input(P),
-            }
+            return Status::rejected_input(P);
         };
         let mut next = plant.a.mul(&self.x);
         plant.b.mul_add_to(u, &mut next);

@@ -9,6 +9,33 @@ mod sealed {
     pub trait Sealed {}
 }
 
+/// The two constructors of a fixed-point observer type: `new` on any
+/// tables (saturating adds) and `proven` on tables with the headroom proof
+/// (plain adds); both hand over to the type's own `with_kernel`.
+macro_rules! constructors {
+    ($observer:ident, $tables:ident, $(#[$new_doc:meta])*) => {
+        impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
+            $observer<'t, Q, N, M, P>
+        {
+            $(#[$new_doc])*
+            pub const fn new(tables: &'t $tables<Q, N, M, P>, x0: [Q; N]) -> Self {
+                Self::with_kernel(tables, x0)
+            }
+        }
+
+        impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
+            $observer<'t, Q, N, M, P, Exact>
+        {
+            /// An observer on tables proven to have headroom (`x0` as for
+            /// [`new`](Self::new)): plain multiply-accumulate, one rounding
+            /// and one saturating store per output, the same results.
+            pub const fn proven(tables: &'t Proven<$tables<Q, N, M, P>>, x0: [Q; N]) -> Self {
+                Self::with_kernel(tables.tables(), x0)
+            }
+        }
+    };
+}
+
 /// How an observer adds the products of its dot products: the type
 /// parameter `K` of the fixed-point observers, [`Saturating`] or [`Exact`].
 ///

@@ -54,25 +54,11 @@ pub struct FixedCurrentObserver<
     pending: Option<Status>,
 }
 
-impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
-    FixedCurrentObserver<'t, Q, N, M, P>
-{
+constructors!(
+    FixedCurrentObserver,
+    FixedCurrentTables,
     /// An observer on `tables` whose prediction x̂[0|−1] is `x0`.
-    pub const fn new(tables: &'t FixedCurrentTables<Q, N, M, P>, x0: [Q; N]) -> Self {
-        Self::with_kernel(tables, x0)
-    }
-}
-
-impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
-    FixedCurrentObserver<'t, Q, N, M, P, Exact>
-{
-    /// An observer on tables proven to have headroom (see [`new`](Self::new)
-    /// for `x0`): plain multiply-accumulate, one rounding and one saturating
-    /// store per output.
-    pub const fn proven(tables: &'t Proven<FixedCurrentTables<Q, N, M, P>>, x0: [Q; N]) -> Self {
-        Self::with_kernel(tables.tables(), x0)
-    }
-}
+);
 
 impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation>
     FixedCurrentObserver<'t, Q, N, M, P, K>

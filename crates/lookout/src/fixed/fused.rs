@@ -44,26 +44,12 @@ pub struct FixedFusedObserver<
     kernel: PhantomData<K>,
 }
 
-impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
-    FixedFusedObserver<'t, Q, N, M, P>
-{
+constructors!(
+    FixedFusedObserver,
+    FixedFusedTables,
     /// An observer on `tables` starting from the estimate `x0`; every
     /// product is added saturating.
-    pub const fn new(tables: &'t FixedFusedTables<Q, N, M, P>, x0: [Q; N]) -> Self {
-        Self::with_kernel(tables, x0)
-    }
-}
-
-impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
-    FixedFusedObserver<'t, Q, N, M, P, Exact>
-{
-    /// An observer on tables proven to have headroom, starting from the
-    /// estimate `x0`: plain multiply-accumulate, one rounding and one
-    /// saturating store per output.
-    pub const fn proven(tables: &'t Proven<FixedFusedTables<Q, N, M, P>>, x0: [Q; N]) -> Self {
-        Self::with_kernel(tables.tables(), x0)
-    }
-}
+);
 
 impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation>
     FixedFusedObserver<'t, Q, N, M, P, K>

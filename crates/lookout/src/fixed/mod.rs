@@ -19,6 +19,7 @@
 //! `checks/no-panic` links every fixed-point step under `#[no_panic]`.
 #![deny(clippy::float_arithmetic, clippy::arithmetic_side_effects)]
 
+#[macro_use]
 mod arith;
 mod convert;
 mod current;

@@ -53,26 +53,12 @@ pub struct FixedPredictorObserver<
     r: [Q; P],
 }
 
-impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
-    FixedPredictorObserver<'t, Q, N, M, P>
-{
+constructors!(
+    FixedPredictorObserver,
+    FixedPredictorTables,
     /// An observer on `tables` starting from the estimate `x0`; more than 32
     /// outputs is a compile error.
-    pub const fn new(tables: &'t FixedPredictorTables<Q, N, M, P>, x0: [Q; N]) -> Self {
-        Self::with_kernel(tables, x0)
-    }
-}
-
-impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
-    FixedPredictorObserver<'t, Q, N, M, P, Exact>
-{
-    /// An observer on tables proven to have headroom (see [`new`](Self::new)
-    /// for `x0`): plain multiply-accumulate, one rounding and one saturating
-    /// store per output.
-    pub const fn proven(tables: &'t Proven<FixedPredictorTables<Q, N, M, P>>, x0: [Q; N]) -> Self {
-        Self::with_kernel(tables.tables(), x0)
-    }
-}
+);
 
 impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation>
     FixedPredictorObserver<'t, Q, N, M, P, K>
