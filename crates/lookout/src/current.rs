@@ -1,5 +1,6 @@
 //! The current-form (filter-form) observer, e.g. a steady-state Kalman filter.
 
+use crate::gate::misses_after;
 use crate::measurement::{all_finite, innovation};
 use crate::{ChannelMask, CurrentTables, Outcome, Real, Status};
 
@@ -37,6 +38,8 @@ pub struct CurrentObserver<'t, T, const N: usize, const M: usize, const P: usize
     /// The status of a `correct` not yet followed by `predict`: `Some` means
     /// `filtered` belongs to the current sample.
     pending: Option<Status>,
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserver<'t, T, N, M, P> {
@@ -50,6 +53,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
             initial: x0,
             r: [T::ZERO; P],
             pending: None,
+            misses: 0,
         }
     }
 
@@ -76,7 +80,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
         let (r, status) = innovation(
             &plant.c,
             &plant.d,
-            self.tables.gate.as_ref(),
+            self.tables.gate.as_ref().map(|g| (g, self.misses)),
             &self.predicted,
             u,
             y,
@@ -87,6 +91,14 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
             self.tables.k.mul_add_to(&r, &mut self.filtered);
         }
         self.r = r;
+        if self.pending.is_none() {
+            // A second correction of the same sample does not count again.
+            self.misses = misses_after(
+                self.tables.gate.as_ref().map(|g| &g.recovery),
+                self.misses,
+                status.outcome,
+            );
+        }
         self.pending = Some(status);
         status
     }
@@ -105,6 +117,11 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
             None => {
                 self.filtered = self.predicted;
                 self.r = [T::ZERO; P];
+                self.misses = misses_after(
+                    self.tables.gate.as_ref().map(|g| &g.recovery),
+                    self.misses,
+                    Outcome::PredictedOnly,
+                );
                 Status::predicted_only(P)
             }
         };
@@ -141,6 +158,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
         self.predicted = x;
         self.filtered = x;
         self.pending = None;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the

@@ -127,7 +127,7 @@ pub use fixed::{
     Q31, Scales, TableName, Wide, dequantise_real, quantise_real, row_exponent,
 };
 pub use fused::FusedObserver;
-pub use gate::Gate;
+pub use gate::{GATE_STAGES, Gate, Recovery};
 pub use matrix::Matrix;
 pub use predictor::PredictorObserver;
 pub use real::Real;

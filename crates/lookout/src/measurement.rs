@@ -1,6 +1,6 @@
 //! Checks of a step's inputs and the innovation, shared by the float observers.
 
-use crate::gate::Gate;
+use crate::gate::{Decision, Gate};
 use crate::{ChannelMask, Matrix, Outcome, Real, Status};
 
 #[inline(always)]
@@ -22,12 +22,13 @@ pub(crate) fn usable<T: Real, const P: usize>(y: &[T; P], requested: ChannelMask
 /// The innovation r = y − C x − D u on the channels that correct the estimate
 /// (zero on the others), and the status saying which those are.
 ///
-/// Costs P·(N + M) multiply-adds, plus the gate's when there is one.
+/// Costs P·(N + M) multiply-adds, plus the gate's when there is one;
+/// `gate` comes with the observer's count of consecutive misses.
 #[inline(always)]
 pub(crate) fn innovation<T: Real, const N: usize, const M: usize, const P: usize>(
     c: &Matrix<T, P, N>,
     d: &Matrix<T, P, M>,
-    gate: Option<&Gate<T, P>>,
+    gate: Option<(&Gate<T, P>, u16)>,
     x: &[T; N],
     u: &[T; M],
     y: &[T; P],
@@ -53,11 +54,11 @@ pub(crate) fn innovation<T: Real, const N: usize, const M: usize, const P: usize
             *rj = T::ZERO;
         }
     }
-    if gate.is_some_and(|g| !g.accepts(&r, present)) {
-        status.outcome = Outcome::Gated;
+    let decision = gate.map_or(Decision::Accept, |(g, misses)| g.judge(&r, present, misses));
+    status.outcome = decision.outcome();
+    if decision == Decision::Reject {
         return ([T::ZERO; P], status);
     }
-    status.outcome = Outcome::Corrected;
     status.used = present;
     (r, status)
 }

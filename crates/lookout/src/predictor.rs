@@ -1,5 +1,6 @@
 //! The predictor (Luenberger) observer.
 
+use crate::gate::misses_after;
 use crate::measurement::{all_finite, innovation};
 use crate::{ChannelMask, PredictorTables, Real, Status};
 
@@ -31,6 +32,8 @@ pub struct PredictorObserver<'t, T, const N: usize, const M: usize, const P: usi
     x: [T; N],
     initial: [T; N],
     r: [T; P],
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
@@ -45,6 +48,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
             x: x0,
             initial: x0,
             r: [T::ZERO; P],
+            misses: 0,
         }
     }
 
@@ -63,7 +67,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
         let (r, status) = innovation(
             &plant.c,
             &plant.d,
-            self.tables.gate.as_ref(),
+            self.tables.gate.as_ref().map(|g| (g, self.misses)),
             &self.x,
             u,
             y,
@@ -76,6 +80,11 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
         }
         self.x = next;
         self.r = r;
+        self.misses = misses_after(
+            self.tables.gate.as_ref().map(|g| &g.recovery),
+            self.misses,
+            status.outcome,
+        );
         status
     }
 
@@ -97,6 +106,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
     /// Replaces the estimate.
     pub fn set_state(&mut self, x: [T; N]) {
         self.x = x;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the
@@ -104,6 +114,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
     pub fn reset(&mut self) {
         self.x = self.initial;
         self.r = [T::ZERO; P];
+        self.misses = 0;
     }
 
     /// The tables the observer runs on.

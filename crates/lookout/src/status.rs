@@ -91,6 +91,10 @@ pub enum Outcome {
     /// The innovation failed the gate test: the measurement was not applied
     /// and the estimate was only predicted.
     Gated,
+    /// The gate re-acquired: after more consecutive misses than its recovery
+    /// table covers (see [`Recovery`](crate::Recovery)), the measurement was
+    /// applied untested through the channels in [`Status::used`].
+    Reacquired,
     /// An input was not finite: the step was refused and the state left
     /// exactly as it was.
     InputRejected,
@@ -128,8 +132,9 @@ impl Status {
         }
     }
 
-    /// Whether the estimate was corrected by a measurement.
+    /// Whether the estimate was corrected by a measurement (tested by the
+    /// gate or re-acquired).
     pub const fn corrected(&self) -> bool {
-        matches!(self.outcome, Outcome::Corrected)
+        matches!(self.outcome, Outcome::Corrected | Outcome::Reacquired)
     }
 }

@@ -116,10 +116,10 @@ fn covariance_factor(name: &str, cov: &DMatrix<f64>) -> Result<DMatrix<f64>, Cli
 
 /// Square-root factors of the process noise (on the plant states) and of
 /// the measurement noise (on the outputs); `None` where there is none.
-type NoiseFactors = (Option<DMatrix<f64>>, Option<DMatrix<f64>>);
+pub(crate) type NoiseFactors = (Option<DMatrix<f64>>, Option<DMatrix<f64>>);
 
 /// Noise factors (process on the plant states, measurement on the outputs).
-fn noise_factors(
+pub(crate) fn noise_factors(
     design: &Design,
     opts: &SimOptions,
     n_plant: usize,

@@ -39,12 +39,42 @@ pub(super) fn process_noise_per_sample(
     }
 }
 
-/// For each output j: the standard deviation of (Cd x̂)_j in steady state when
-/// unit-variance white noise enters on output j alone, x̂⁺ = F x̂ + H_j w.
+/// X = Σₖ Fᵏ W (Fᵏ)ᵀ, the solution of the discrete Lyapunov equation
+/// X = F X Fᵀ + W: the steady covariance of x⁺ = F x + w with cov(w) = W.
 ///
-/// The state covariance X = Σₖ Fᵏ H_j H_jᵀ (Fᵏ)ᵀ is summed by the doubling
-/// (Smith) iteration X ← X + Aᵢ X Aᵢᵀ, Aᵢ₊₁ = Aᵢ², which converges
-/// quadratically when ρ(F) < 1; it stops after 64 doublings at most.
+/// Summed by Smith's doubling iteration (R. A. Smith, "Matrix equation
+/// XA + BX = C", SIAM J. Appl. Math. 16, 1968): X ← X + Aᵢ X Aᵢᵀ,
+/// Aᵢ₊₁ = Aᵢ², which converges quadratically when ρ(F) < 1; it stops after
+/// 64 doublings at most. Not finite (an error) when F is not stable.
+pub fn steady_covariance(
+    f: &DMatrix<f64>,
+    w: &DMatrix<f64>,
+) -> Result<DMatrix<f64>, NumericsError> {
+    let mut x = w.clone();
+    let mut a = f.clone();
+    for _ in 0..64 {
+        let step = &a * &x * a.transpose();
+        let done = step.norm() <= f64::EPSILON * x.norm();
+        x += step;
+        if done {
+            break;
+        }
+        a = &a * &a;
+    }
+    if x.iter().all(|v| v.is_finite()) {
+        Ok(x)
+    } else {
+        Err(NumericsError::BadParameter {
+            name: "steady covariance",
+            value: f64::INFINITY,
+            condition: "finite (the error dynamics must be stable)",
+        })
+    }
+}
+
+/// For each output j: the standard deviation of (Cd x̂)_j in steady state when
+/// unit-variance white noise enters on output j alone, x̂⁺ = F x̂ + H_j w
+/// (the state covariance by [`steady_covariance`]).
 pub(super) fn output_noise_gain(
     f: &DMatrix<f64>,
     h: &DMatrix<f64>,
@@ -53,17 +83,7 @@ pub(super) fn output_noise_gain(
     (0..h.ncols())
         .map(|j| {
             let hj = h.column(j);
-            let mut x = hj * hj.transpose();
-            let mut a = f.clone();
-            for _ in 0..64 {
-                let step = &a * &x * a.transpose();
-                let done = step.norm() <= f64::EPSILON * x.norm();
-                x += step;
-                if done {
-                    break;
-                }
-                a = &a * &a;
-            }
+            let x = steady_covariance(f, &(hj * hj.transpose()))?;
             let cj = cd.row(j);
             let variance = (cj * &x * cj.transpose())
                 .get((0, 0))

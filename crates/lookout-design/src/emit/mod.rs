@@ -7,6 +7,7 @@
 //! writes the whole file or nothing.
 
 mod fixed;
+mod gate;
 mod literal;
 
 pub use literal::Scalar;
@@ -145,13 +146,7 @@ fn source(d: &Design, scalar: Scalar) -> Option<String> {
 
     let gate = match &d.gate {
         None => "None".to_string(),
-        Some(g) => format!(
-            "Some(lookout::Gate {{ s_inv: {}, limit: {}, channel_inv_variance: {}, channel_limit: {} }})",
-            matrix(scalar, &g.s_inv)?,
-            scalar.literal(g.limit)?,
-            literal::list(scalar, g.channel_inv_variance.iter().copied())?,
-            scalar.literal(g.channel_limit)?,
-        ),
+        Some(g) => gate::float(scalar, g)?,
     };
     let plant_item = format!(
         "lookout::Plant {{\n        a: {},\n        b: {},\n        c: {},\n        d: {},\n    }}",

@@ -4,7 +4,8 @@ use super::arith::{Saturations, mul_acc, round_row};
 use super::format::{Fixed, Wide};
 use super::measurement::{initial_status, innovation};
 use super::tables::FixedCurrentTables;
-use crate::{ChannelMask, Status};
+use crate::gate::misses_after;
+use crate::{ChannelMask, Outcome, Status};
 
 /// Discrete current-form observer (e.g. steady-state Kalman filter) in Q15
 /// or Q31, integer only.
@@ -38,6 +39,8 @@ pub struct FixedCurrentObserver<'t, Q: Fixed, const N: usize, const M: usize, co
     r: [Q; P],
     /// The status of a `correct` not yet followed by `predict`.
     pending: Option<Status>,
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
@@ -53,6 +56,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
             initial: x0,
             r: [Q::ZERO; P],
             pending: None,
+            misses: 0,
         }
     }
 
@@ -77,7 +81,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
         let mut sat = Saturations::default();
         let (r, mut status) = innovation(
             &t.output,
-            t.gate.as_ref(),
+            t.gate.as_ref().map(|g| (g, self.misses)),
             &self.predicted,
             u,
             y,
@@ -94,6 +98,13 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
         }
         self.r = r;
         status.saturations = sat.0;
+        if self.pending.is_none() {
+            self.misses = misses_after(
+                self.tables.gate.as_ref().map(|g| &g.recovery),
+                self.misses,
+                status.outcome,
+            );
+        }
         self.pending = Some(status);
         status
     }
@@ -109,6 +120,11 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
             None => {
                 self.filtered = self.predicted;
                 self.r = [Q::ZERO; P];
+                self.misses = misses_after(
+                    self.tables.gate.as_ref().map(|g| &g.recovery),
+                    self.misses,
+                    Outcome::PredictedOnly,
+                );
                 initial_status::<P>(ChannelMask::NONE).1
             }
         };
@@ -148,6 +164,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
         self.predicted = x;
         self.filtered = x;
         self.pending = None;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the

@@ -28,6 +28,8 @@ pub struct FixedFusedObserver<'t, Q: Fixed, const N: usize, const M: usize, cons
     x: [Q; N],
     initial: [Q; N],
     r: [Q; P],
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
@@ -41,6 +43,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
             x: x0,
             initial: x0,
             r: [Q::ZERO; P],
+            misses: 0,
         }
     }
 
@@ -67,13 +70,14 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
                     *rj = sat.store(yj.widen().sat_sub(pj));
                 }
             }
-            let rejected = present.is_empty() || !gate.accepts(&r, present);
+            status.outcome = if present.is_empty() {
+                Outcome::PredictedOnly
+            } else {
+                gate.judge(&r, present, self.misses).outcome()
+            };
+            self.misses = gate.recovery.count_after(self.misses, status.outcome);
+            let rejected = !status.corrected();
             if rejected {
-                status.outcome = if present.is_empty() {
-                    Outcome::PredictedOnly
-                } else {
-                    Outcome::Gated
-                };
                 status.used = ChannelMask::NONE;
                 r = [Q::ZERO; P];
             }
@@ -124,6 +128,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
     /// Replaces the estimate.
     pub fn set_state(&mut self, x: [Q; N]) {
         self.x = x;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the
@@ -131,6 +136,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
     pub fn reset(&mut self) {
         self.x = self.initial;
         self.r = [Q::ZERO; P];
+        self.misses = 0;
     }
 
     /// The tables the observer runs on.

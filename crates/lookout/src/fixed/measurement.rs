@@ -3,6 +3,7 @@
 use super::arith::{Saturations, mul_acc, round_row};
 use super::format::{Fixed, Wide};
 use super::tables::{FixedGate, FixedOutputMap};
+use crate::gate::Decision;
 use crate::{ChannelMask, Outcome, Status};
 
 /// ŷ = C x + D u per output, rounded to the output's LSB but not yet
@@ -37,10 +38,11 @@ pub(crate) fn initial_status<const P: usize>(requested: ChannelMask) -> (Channel
 
 /// The innovation r = y − ŷ on the channels that correct the estimate (zero
 /// on the others), each element rounded once and stored saturating, and the
-/// status saying which channels those are.
+/// status saying which channels those are; `gate` comes with the observer's count
+/// of consecutive misses (see [`Recovery`](crate::Recovery)).
 pub(crate) fn innovation<Q: Fixed, const N: usize, const M: usize, const P: usize>(
     out: &FixedOutputMap<Q, N, M, P>,
-    gate: Option<&FixedGate<Q, P>>,
+    gate: Option<(&FixedGate<Q, P>, u16)>,
     x: &[Q; N],
     u: &[Q; M],
     y: &[Q; P],
@@ -58,11 +60,11 @@ pub(crate) fn innovation<Q: Fixed, const N: usize, const M: usize, const P: usiz
             *rj = sat.store(yj.widen().sat_sub(pj));
         }
     }
-    if gate.is_some_and(|g| !g.accepts(&r, present)) {
-        status.outcome = Outcome::Gated;
+    let decision = gate.map_or(Decision::Accept, |(g, misses)| g.judge(&r, present, misses));
+    status.outcome = decision.outcome();
+    if decision == Decision::Reject {
         return ([Q::ZERO; P], status);
     }
-    status.outcome = Outcome::Corrected;
     status.used = present;
     (r, status)
 }

@@ -4,6 +4,7 @@ use super::arith::{Saturations, mul_acc};
 use super::format::{Fixed, Wide};
 use super::measurement::innovation;
 use super::tables::FixedPredictorTables;
+use crate::gate::misses_after;
 use crate::{ChannelMask, Status};
 
 /// Discrete predictor (Luenberger) observer in Q15 or Q31, integer only.
@@ -37,6 +38,8 @@ pub struct FixedPredictorObserver<'t, Q: Fixed, const N: usize, const M: usize, 
     x: [Q; N],
     initial: [Q; N],
     r: [Q; P],
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
@@ -51,6 +54,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
             x: x0,
             initial: x0,
             r: [Q::ZERO; P],
+            misses: 0,
         }
     }
 
@@ -63,8 +67,20 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
     pub fn step_masked(&mut self, u: &[Q; M], y: &[Q; P], valid: ChannelMask) -> Status {
         let t = self.tables;
         let mut sat = Saturations::default();
-        let (r, mut status) =
-            innovation(&t.output, t.gate.as_ref(), &self.x, u, y, valid, &mut sat);
+        let (r, mut status) = innovation(
+            &t.output,
+            t.gate.as_ref().map(|g| (g, self.misses)),
+            &self.x,
+            u,
+            y,
+            valid,
+            &mut sat,
+        );
+        self.misses = misses_after(
+            self.tables.gate.as_ref().map(|g| &g.recovery),
+            self.misses,
+            status.outcome,
+        );
         let mut acc = [<Q::Acc as Wide>::ZERO; N];
         mul_acc(&t.a, &self.x, &mut acc);
         mul_acc(&t.b, u, &mut acc);
@@ -95,6 +111,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
     /// Replaces the estimate.
     pub fn set_state(&mut self, x: [Q; N]) {
         self.x = x;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the
@@ -102,6 +119,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
     pub fn reset(&mut self) {
         self.x = self.initial;
         self.r = [Q::ZERO; P];
+        self.misses = 0;
     }
 
     /// The tables the observer runs on.
