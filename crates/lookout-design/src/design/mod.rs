@@ -313,10 +313,13 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
                 .iter()
                 .map(|(k, m)| Warning::new(k.clone(), m.clone())),
         );
-        if design.gate.is_some() {
+        if design.gate.is_some() && design.p() > crate::emit::MAX_FIXED_GATE_OUTPUTS {
             early_warnings.push(Warning::new(
                 "observer.gate_probability",
-                "the fixed-point tables are emitted without the gate (not yet generated for Q tables)",
+                format!(
+                    "the fixed-point tables are emitted without the gate (generated for at most {} outputs)",
+                    crate::emit::MAX_FIXED_GATE_OUTPUTS
+                ),
             ));
         }
         design.fixed_point = Some(fixed);

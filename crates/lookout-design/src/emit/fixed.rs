@@ -83,6 +83,12 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
             ints(&c.exponents)
         ))
     };
+    let gate = match &d.gate {
+        Some(g) if d.p() <= super::gate::MAX_FIXED_GATE_OUTPUTS => {
+            super::gate::fixed(ty, g, &fx.output_exponents)?
+        }
+        _ => "None".to_string(),
+    };
     if !fx.form_tables.is_empty() {
         let t = &fx.form_tables;
         let (a, b) = (table(t, "a")?, table(t, "b")?);
@@ -91,7 +97,7 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
                 let l = table(t, "l")?;
                 let _ = writeln!(
                     s,
-                    "    /// Predictor tables in {ty} (integer-only step).\n    pub static PREDICTOR_{suffix}: lookout::FixedPredictorTables<lookout::{ty}, N, M, P> = lookout::FixedPredictorTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        l: {},\n        exp: {},\n        output: {},\n        gate: None,\n    }};",
+                    "    /// Predictor tables in {ty} (integer-only step).\n    pub static PREDICTOR_{suffix}: lookout::FixedPredictorTables<lookout::{ty}, N, M, P> = lookout::FixedPredictorTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        l: {},\n        exp: {},\n        output: {},\n        gate: {gate},\n    }};",
                     qmatrix(ty, a),
                     qmatrix(ty, b),
                     qmatrix(ty, l),
@@ -103,7 +109,7 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
                 let k = table(t, "k")?;
                 let _ = writeln!(
                     s,
-                    "    /// Current-form tables in {ty} (integer-only step).\n    pub static CURRENT_{suffix}: lookout::FixedCurrentTables<lookout::{ty}, N, M, P> = lookout::FixedCurrentTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        exp: {},\n        k: {},\n        k_exp: {},\n        output: {},\n        gate: None,\n    }};",
+                    "    /// Current-form tables in {ty} (integer-only step).\n    pub static CURRENT_{suffix}: lookout::FixedCurrentTables<lookout::{ty}, N, M, P> = lookout::FixedCurrentTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        exp: {},\n        k: {},\n        k_exp: {},\n        output: {},\n        gate: {gate},\n    }};",
                     qmatrix(ty, a),
                     qmatrix(ty, b),
                     ints(&a.exponents),
@@ -118,7 +124,7 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
     let f = table(t, "f")?;
     let _ = writeln!(
         s,
-        "    /// Fused tables in {ty} (integer-only step).\n    pub static FUSED_{suffix}: lookout::FixedFusedTables<lookout::{ty}, N, M, P> = lookout::FixedFusedTables {{\n        scales: SCALES,\n        f: {},\n        g: {},\n        h: {},\n        exp: {},\n        output: {},\n        gate: None,\n    }};",
+        "    /// Fused tables in {ty} (integer-only step).\n    pub static FUSED_{suffix}: lookout::FixedFusedTables<lookout::{ty}, N, M, P> = lookout::FixedFusedTables {{\n        scales: SCALES,\n        f: {},\n        g: {},\n        h: {},\n        exp: {},\n        output: {},\n        gate: {gate},\n    }};",
         qmatrix(ty, f),
         qmatrix(ty, table(t, "g")?),
         qmatrix(ty, table(t, "h")?),

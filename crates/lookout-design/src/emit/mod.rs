@@ -10,6 +10,7 @@ mod fixed;
 mod gate;
 mod literal;
 
+pub use gate::MAX_FIXED_GATE_OUTPUTS;
 pub use literal::Scalar;
 
 use crate::design::{Design, DesignError, design_file};
