@@ -45,6 +45,8 @@ pub struct Reference {
     pub spacing: usize,
     /// k of the k·σ band (see [`band_multiple`]).
     pub k: f64,
+    /// F, the error dynamics.
+    pub f: DMatrix<f64>,
 }
 
 /// k with P(|z| > k) = BAND_MISS / (n · steps) for a standard normal z:
@@ -84,15 +86,18 @@ impl Reference {
             q.view_mut((0, 0), (n_plant, n_plant))
                 .copy_from(&(s * s.transpose()));
         }
-        let r = measurement
-            .as_ref()
-            .map_or_else(|| DMatrix::zeros(design.p(), design.p()), |s| s * s.transpose());
+        let r = measurement.as_ref().map_or_else(
+            || DMatrix::zeros(design.p(), design.p()),
+            |s| s * s.transpose(),
+        );
         let noisy = process.is_some() || measurement.is_some();
         let model_noise = opts.process_noise.is_none() && opts.measurement_noise.is_none();
         let (cov, source, white) = match (&design.kalman, model_noise) {
-            (Some(k), true) if design.model.disturbances.is_none() => {
-                (k.p.clone(), "the Kalman design's a-priori covariance P", true)
-            }
+            (Some(k), true) if design.model.disturbances.is_none() => (
+                k.p.clone(),
+                "the Kalman design's a-priori covariance P",
+                true,
+            ),
             _ => {
                 let w = &q + &design.h * &r * design.h.transpose();
                 let cov = lookout_design::design::steady_covariance(&design.f, &w)
@@ -126,6 +131,7 @@ impl Reference {
             rounding_gain: rounding_gain(&design.f),
             spacing,
             k: band_multiple(n, opts.steps),
+            f: design.f.clone(),
         })
     }
 

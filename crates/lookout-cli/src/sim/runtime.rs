@@ -547,6 +547,7 @@ mod tests {
             font: None,
             csv: None,
             sweep: None,
+            formats: None,
         }
     }
 

@@ -2,6 +2,7 @@
 
 use super::options::SimOptions;
 use super::runtime::Format;
+use super::verdict::Verdict;
 use super::{RunResult, run_once};
 use crate::error::CliError;
 use lookout_design::Design;
@@ -28,6 +29,8 @@ pub struct WorstCase {
     pub settling_step: Option<usize>,
     /// Whether it converged.
     pub converged: bool,
+    /// Its verdict's label.
+    pub verdict: &'static str,
     /// max_i |final_error_i| / tolerance_i, the ranking key.
     score: f64,
 }
@@ -41,6 +44,8 @@ pub struct FormatSummary {
     pub stable: usize,
     /// Runs that converged.
     pub converged: usize,
+    /// Runs found biased.
+    pub biased: usize,
     /// The worst runs, worst first.
     pub worst: Vec<WorstCase>,
 }
@@ -54,6 +59,8 @@ pub struct SweepSummary {
     pub formats: Vec<FormatSummary>,
     /// Formats not run, with the reason.
     pub skipped: Vec<(Format, String)>,
+    /// Where the first run's band came from.
+    pub tolerance_source: String,
 }
 
 /// A run without its time series (only what the sweep keeps).
@@ -75,7 +82,12 @@ pub fn run_seed(seed: u64, i: usize) -> u64 {
 }
 
 /// Runs the sweep; a progress line goes to stderr when it is a terminal.
-pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSummary, CliError> {
+pub fn run(
+    design: &Design,
+    opts: &SimOptions,
+    setup: &super::Setup,
+    runs: usize,
+) -> Result<SweepSummary, CliError> {
     let done = AtomicUsize::new(0);
     let show = std::io::stderr().is_terminal();
     let shown = Mutex::new(0usize);
@@ -84,7 +96,7 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
     let results: Vec<Result<RunResult, CliError>> = (0..runs)
         .into_par_iter()
         .map(|i| {
-            let r = run_once(design, opts, run_seed(opts.seed, i)).map(digest);
+            let r = run_once(design, opts, setup, run_seed(opts.seed, i)).map(digest);
             let k = done.fetch_add(1, Ordering::Relaxed) + 1;
             if show && (k * 50 / runs != (k - 1) * 50 / runs || k == runs) {
                 // Threads finish out of order: only a count above the one
@@ -104,10 +116,12 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
         .collect();
     let mut formats: Vec<FormatSummary> = Vec::new();
     let mut skipped = Vec::new();
+    let mut tolerance_source = String::new();
     for (i, r) in results.into_iter().enumerate() {
         let r = r?;
         if i == 0 {
             skipped = r.skipped.clone();
+            tolerance_source = r.tolerance_source.clone();
             formats = r
                 .formats
                 .iter()
@@ -115,6 +129,7 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
                     format: run.format,
                     stable: 0,
                     converged: 0,
+                    biased: 0,
                     worst: Vec::new(),
                 })
                 .collect();
@@ -122,6 +137,7 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
         for (summary, (_, m)) in formats.iter_mut().zip(&r.formats) {
             summary.stable += usize::from(m.stable);
             summary.converged += usize::from(m.converged);
+            summary.biased += usize::from(matches!(m.verdict, Verdict::Biased { .. }));
             let score = m
                 .final_error
                 .iter()
@@ -141,6 +157,7 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
                 final_error: m.final_error.clone(),
                 settling_step: m.settling_step,
                 converged: m.converged,
+                verdict: m.verdict.label(),
                 score,
             });
             // Worst first; ties by run index, so the order is reproducible.
@@ -154,5 +171,29 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
         runs,
         formats,
         skipped,
+        tolerance_source,
     })
+}
+
+/// The command that reproduces run `seed` of a sweep exactly: this
+/// process's own arguments without `--sweep`, `--seed`, `--mismatch` and
+/// `--json`, then the run's seed and the sweep's mismatch.
+pub fn rerun_command(seed: u64, mismatch: f64) -> String {
+    let mut out = vec!["lookout".to_string()];
+    let mut args = std::env::args().skip(1);
+    while let Some(a) = args.next() {
+        let name = a.split('=').next().unwrap_or("");
+        match name {
+            "--sweep" | "--seed" | "--mismatch" => {
+                if !a.contains('=') {
+                    args.next();
+                }
+            }
+            "--json" => {}
+            _ if a.is_empty() || a.contains(char::is_whitespace) => out.push(format!("'{a}'")),
+            _ => out.push(a),
+        }
+    }
+    out.push(format!("--seed {seed} --mismatch {mismatch}"));
+    out.join(" ")
 }
