@@ -489,3 +489,83 @@ fn plot_is_written() {
         "must end in .svg or .png",
     );
 }
+
+fn verdicts(v: &Value) -> Vec<(String, String)> {
+    v["formats"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .map(|f| {
+            (
+                f["format"].as_str().unwrap().to_string(),
+                f["verdict"].as_str().unwrap().to_string(),
+            )
+        })
+        .collect()
+}
+
+/// Issue 13, done-when: the bundled Kalman demo, run bare (its own noise,
+/// the gate active), converges in every format for seeds 1 to 20 (a sweep
+/// without mismatch runs exactly seeds 1..=20), and a single run prints its
+/// NEES and NIS statistics.
+#[test]
+fn kalman_demo_converges_for_seeds_1_to_20() {
+    let v = json(&[
+        "simulate",
+        DEMO_KALMAN,
+        "--sweep",
+        "20",
+        "--mismatch",
+        "0",
+        "--json",
+    ]);
+    for f in v["formats"].as_array().unwrap() {
+        assert_eq!(f["converged_fraction"], 1.0, "{f}");
+    }
+    let out = lookout(&["simulate", DEMO_KALMAN]);
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert!(text.contains("NEES") && text.contains("NIS"), "{text}");
+    assert!(text.contains("verdict f64: CONVERGED"), "{text}");
+}
+
+/// Issue 13: a steady error the observer does not model is reported as a
+/// bias, in every format, with and without noise: the noise-free demo on a
+/// plant 30 % off (its error cannot decay as F predicts), and the Kalman
+/// demo with a constant unmodelled input (final-value bias, as in
+/// `unmodelled_input_disturbance_leaves_the_final_value_bias`).
+#[test]
+fn mismatched_plant_is_reported_biased() {
+    for args in [
+        vec!["simulate", DEMO, "--mismatch", "0.3", "--json"],
+        vec!["simulate", DEMO_KALMAN, "--disturbance", "0:0.3", "--json"],
+    ] {
+        for (format, verdict) in verdicts(&json(&args)) {
+            assert_eq!(verdict, "biased", "{args:?}: {format}");
+        }
+    }
+    let out = lookout(&["simulate", DEMO, "--mismatch", "0.3"]);
+    assert!(String::from_utf8_lossy(&out.stdout).contains("[disturbances]"));
+}
+
+/// Issue 13: when the f64 run is not finite (an input of 1e308 A overflows
+/// the plant), no format is called converged, and f64's failure is the
+/// design's.
+#[test]
+fn non_finite_f64_run_is_never_converged() {
+    let args = ["simulate", DEMO, "--input", "step:1e308", "--steps", "300"];
+    let mut with_json = args.to_vec();
+    with_json.extend(["--formats", "f32,q31,q15", "--json"]);
+    let v = json(&with_json);
+    for (format, verdict) in verdicts(&v) {
+        assert!(
+            verdict == "diverged" || verdict == "design failed",
+            "{format}: {verdict}"
+        );
+    }
+    for f in v["formats"].as_array().unwrap() {
+        assert_eq!(f["converged"], false);
+    }
+    let text = String::from_utf8_lossy(&lookout(&args).stdout).into_owned();
+    assert!(text.contains("the design fails"), "{text}");
+    assert!(!text.contains("CONVERGED:"), "{text}");
+}

@@ -2,7 +2,7 @@
 //! and the design's statistics ([`Reference`]), and its [`Verdict`].
 
 use super::plant::Trajectory;
-use super::reference::{ROUNDING_MULTIPLE, Reference};
+use super::reference::{ROUNDING_MULTIPLE, Reference, test_confidence};
 use super::runtime::{Format, FormatRun};
 use super::verdict::{Interval, Verdict, mean_within, normal_quantile};
 use lookout_design::Design;
@@ -146,10 +146,15 @@ pub fn residual(traj: &Trajectory, reference_run: &FormatRun) -> Vec<f64> {
 
 /// Averages eᵀ M⁻¹ e over the sample indices `at` (`None` if M is not
 /// positive definite or there are no samples).
-fn normalised(m: &DMatrix<f64>, samples: &[DVector<f64>]) -> Option<Interval> {
+fn normalised(m: &DMatrix<f64>, samples: &[DVector<f64>], confidence: f64) -> Option<Interval> {
     let chol = m.clone().cholesky()?;
     let total: f64 = samples.iter().map(|e| e.dot(&chol.solve(e))).sum();
-    Interval::chi_square(total / samples.len() as f64, samples.len(), m.nrows())
+    Interval::chi_square(
+        total / samples.len() as f64,
+        samples.len(),
+        m.nrows(),
+        confidence,
+    )
 }
 
 /// The settled samples used by the statistics: every `spacing`-th step
@@ -188,7 +193,8 @@ fn consistency(
         .into_iter()
         .map(err)
         .collect();
-    let nees = normalised(&reference.cov, &e);
+    let confidence = test_confidence(n);
+    let nees = normalised(&reference.cov, &e, confidence);
     let nis_spacing = if reference.white_innovation {
         1
     } else {
@@ -203,7 +209,7 @@ fn consistency(
             y - &design.cd * x - &design.dd * u
         })
         .collect();
-    let nis = normalised(&reference.innovation_cov, &r);
+    let nis = normalised(&reference.innovation_cov, &r, confidence);
     let note = nees
         .is_none()
         .then(|| "the design's error covariance is singular: no NEES".to_string());
@@ -211,8 +217,8 @@ fn consistency(
 }
 
 /// Per state: the mean error over the settled, nearly independent
-/// samples, its limit z·σ/√K + the rounding term (z the normal
-/// [`CONFIDENCE`](super::reference::CONFIDENCE) quantile), and the first
+/// samples, its limit z·σ/√K + the rounding term (z the two-sided normal
+/// quantile at [`test_confidence`]), and the first
 /// state beyond it.
 fn bias_with_noise(
     traj: &Trajectory,
@@ -222,7 +228,7 @@ fn bias_with_noise(
     start: usize,
 ) -> (Vec<f64>, Vec<f64>, Option<usize>) {
     let n = traj.n;
-    let z = normal_quantile();
+    let z = normal_quantile(test_confidence(n));
     let samples = settled(start, traj.steps + 1, reference.spacing);
     let mut out = (Vec::with_capacity(n), Vec::with_capacity(n), None);
     for i in 0..n {
@@ -395,18 +401,24 @@ pub fn measure(
     }
 }
 
-/// Marks every format of a run whose f64 observer diverged: the design
-/// fails, and no format is called converged.
-pub fn design_failed(formats: &mut [(FormatRun, Metrics)]) {
-    let f64_failed = formats
-        .first()
-        .is_some_and(|(_, m)| m.verdict == Verdict::NotFinite);
-    if f64_failed {
-        for (_, m) in formats.iter_mut().skip(1) {
-            if m.verdict != Verdict::NotFinite {
+/// Carries the f64 observer's failure to the other formats of a run: when
+/// f64 diverged the design fails and no format is called converged; when
+/// f64 is biased, a format that otherwise passed follows that biased
+/// estimate within its own rounding and is biased too.
+pub fn carry_f64_verdict(formats: &mut [(FormatRun, Metrics)]) {
+    let Some(first) = formats.first().map(|(_, m)| m.verdict.clone()) else {
+        return;
+    };
+    for (_, m) in formats.iter_mut().skip(1) {
+        match (&first, &m.verdict) {
+            (Verdict::NotFinite, v) if *v != Verdict::NotFinite => {
                 m.verdict = Verdict::DesignFailed;
-                m.converged = false;
             }
+            (Verdict::Biased { state }, Verdict::Converged) => {
+                m.verdict = Verdict::Biased { state: *state };
+            }
+            _ => {}
         }
+        m.converged = m.verdict.converged();
     }
 }

@@ -47,7 +47,7 @@ fn verdict(design: &Design, run: &FormatRun, m: &Metrics, t: f64) -> String {
             m.mean_limit.get(*state).copied().unwrap_or(f64::NAN)
         ),
         (Verdict::Inconsistent { test }, _) => format!(
-            "NOT CONVERGED: settled, but the {test} average is outside its 99 % chi-square interval: the error is not what the design predicts; {tail}"
+            "NOT CONVERGED: settled, but the {test} average is outside its chi-square interval: the error is not what the design predicts; {tail}"
         ),
         (Verdict::NotFinite, _) if run.format == Format::F64 => {
             format!("DIVERGED: the f64 observer's error is not finite: the design fails; {tail}")
@@ -61,7 +61,7 @@ fn verdict(design: &Design, run: &FormatRun, m: &Metrics, t: f64) -> String {
 }
 
 /// The statistics line of a format: NEES, NIS and the mean-error test.
-fn statistics(m: &Metrics) -> String {
+fn statistics(m: &Metrics, n: usize) -> String {
     let show = |name: &str, i: &Option<Interval>| {
         i.map(|i| {
             format!(
@@ -82,7 +82,12 @@ fn statistics(m: &Metrics) -> String {
     if let Some(why) = &m.untested {
         parts.push(format!("consistency not tested: {why}"));
     }
-    format!("99 % intervals: {}", parts.join("; "))
+    format!(
+        "tests at {:.3} % each ({} % for the run): {}",
+        100.0 * super::reference::test_confidence(n),
+        100.0 * super::reference::CONFIDENCE,
+        parts.join("; ")
+    )
 }
 
 /// The readable report.
@@ -142,7 +147,7 @@ pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
                 units.get(i).map_or("", String::as_str)
             );
         }
-        let _ = writeln!(s, "  {}", statistics(m));
+        let _ = writeln!(s, "  {}", statistics(m, names.len()));
         let _ = writeln!(
             s,
             "  verdict {}: {}",

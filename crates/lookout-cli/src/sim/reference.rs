@@ -9,8 +9,16 @@ use crate::error::CliError;
 use lookout_design::Design;
 use nalgebra::DMatrix;
 
-/// Two-sided confidence of every interval a verdict uses.
-pub const CONFIDENCE: f64 = 0.99;
+/// Confidence of a run's verdict: a consistent, unbiased run is called
+/// biased or inconsistent with probability at most 1 − CONFIDENCE, the
+/// n + 2 tests (mean error per state, NEES, NIS) sharing it (Bonferroni).
+pub const CONFIDENCE: f64 = 0.999;
+
+/// The two-sided confidence of each of the n + 2 tests of a run with `n`
+/// states.
+pub fn test_confidence(n: usize) -> f64 {
+    1.0 - (1.0 - CONFIDENCE) / (n + 2) as f64
+}
 
 /// Probability that a consistent run leaves its k·σ band anywhere, at any
 /// state (split over states and steps: Bonferroni).

@@ -9,8 +9,6 @@
 //! (K·p) degrees; the test accepts when the average lies in the two-sided
 //! interval of that law at the stated confidence.
 
-use super::reference::CONFIDENCE;
-
 /// A time average and its two-sided chi-square acceptance interval.
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct Interval {
@@ -27,12 +25,12 @@ pub struct Interval {
 }
 
 impl Interval {
-    /// The [`CONFIDENCE`] interval of the average of `samples` chi-square
-    /// values with `dof` degrees each: χ²_{K·dof}((1 ∓ c)/2) / K; `None`
-    /// without samples.
-    pub fn chi_square(value: f64, samples: usize, dof: usize) -> Option<Self> {
+    /// The two-sided `confidence` interval of the average of `samples`
+    /// chi-square values with `dof` degrees each: χ²_{K·dof}((1 ∓ c)/2) / K;
+    /// `None` without samples.
+    pub fn chi_square(value: f64, samples: usize, dof: usize, confidence: f64) -> Option<Self> {
         let total = u32::try_from(samples.checked_mul(dof)?).ok()?;
-        let tail = 0.5 * (1.0 - CONFIDENCE);
+        let tail = 0.5 * (1.0 - confidence);
         let k = samples as f64;
         Some(Self {
             value,
@@ -102,10 +100,10 @@ pub fn mean_within(values: &[f64], limit: f64) -> (f64, bool) {
     (mean, mean.abs() <= limit)
 }
 
-/// z with P(|z| ≤ z_c) = [`CONFIDENCE`] for a standard normal z.
-pub fn normal_quantile() -> f64 {
-    lookout::chi_square_limit(1, CONFIDENCE)
-        .unwrap_or(6.635)
+/// z with P(|z| ≤ z) = `confidence` for a standard normal z.
+pub fn normal_quantile(confidence: f64) -> f64 {
+    lookout::chi_square_limit(1, confidence)
+        .unwrap_or(10.83)
         .sqrt()
 }
 
@@ -120,10 +118,10 @@ mod tests {
     /// 20, 7.434 and 39.997.
     #[test]
     fn intervals_match_the_published_table() {
-        let one = Interval::chi_square(1.0, 10, 1).unwrap();
+        let one = Interval::chi_square(1.0, 10, 1, 0.99).unwrap();
         assert!((one.low * 10.0 - 2.156).abs() < 5e-4, "{one:?}");
         assert!((one.high * 10.0 - 25.188).abs() < 5e-4, "{one:?}");
-        let two = Interval::chi_square(2.0, 10, 2).unwrap();
+        let two = Interval::chi_square(2.0, 10, 2, 0.99).unwrap();
         assert!((two.low * 10.0 - 7.434).abs() < 5e-4, "{two:?}");
         assert!((two.high * 10.0 - 39.997).abs() < 5e-4, "{two:?}");
     }
@@ -141,7 +139,7 @@ mod tests {
             let k = 100;
             let dof = 3;
             let sum: f64 = (0..k * dof).map(|_| rng.normal().powi(2)).sum();
-            let interval = Interval::chi_square(sum / k as f64, k, dof).unwrap();
+            let interval = Interval::chi_square(sum / k as f64, k, dof, 0.99).unwrap();
             failures += usize::from(!interval.holds());
         }
         assert!(failures < 9, "{failures} of 200 failed");
