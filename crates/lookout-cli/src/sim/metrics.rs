@@ -346,7 +346,9 @@ pub fn measure(
         Some(k) if k + 1 < len => Some(k + 1),
         Some(_) => None,
     };
-    let start = settling_step.unwrap_or(len);
+    // Unsettled runs are tested for a bias over their last quarter: an
+    // error that stays outside its band by a steady amount is a bias.
+    let start = settling_step.unwrap_or(len - len / 4);
     let (mean_error, mean_limit, biased) = if reference.noisy {
         bias_with_noise(traj, run, reference, &rounding, start)
     } else {
@@ -359,10 +361,10 @@ pub fn measure(
     };
     let verdict = if !finite {
         Verdict::NotFinite
-    } else if settling_step.is_none() {
-        Verdict::NotSettled
     } else if let Some(state) = biased {
         Verdict::Biased { state }
+    } else if settling_step.is_none() {
+        Verdict::NotSettled
     } else if nees.is_some_and(|i| !i.holds()) {
         Verdict::Inconsistent { test: "NEES" }
     } else if nis.is_some_and(|i| !i.holds()) {

@@ -41,7 +41,7 @@ fn verdict(design: &Design, run: &FormatRun, m: &Metrics, t: f64) -> String {
             }
         ),
         (Verdict::Biased { state }, _) => format!(
-            "BIASED: settled, but the error of {} ({:.3e}) does not average out or decay (limit ±{:.3e}); a steady model mismatch or an unmodelled load: model it under [disturbances]; {tail}",
+            "BIASED: the error of {} ({:.3e}) does not average out or decay (limit ±{:.3e}); a steady model mismatch or an unmodelled load: model it under [disturbances]; {tail}",
             name(*state),
             m.mean_error.get(*state).copied().unwrap_or(f64::NAN),
             m.mean_limit.get(*state).copied().unwrap_or(f64::NAN)
