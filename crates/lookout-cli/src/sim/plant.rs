@@ -94,6 +94,8 @@ pub struct Trajectory {
     pub dropped: usize,
     /// Readings made outliers.
     pub outliers: usize,
+    /// Whether each reading is an outlier, p per row.
+    pub outlier: Vec<bool>,
 }
 
 /// Square root factor S (S Sᵀ = cov) of a covariance, through its
@@ -233,6 +235,7 @@ pub fn record(
         valid: Vec::with_capacity(steps * p),
         dropped: 0,
         outliers: 0,
+        outlier: Vec::with_capacity(steps * p),
     };
     let acting = |k: usize| opts.disturbance.filter(|d| k >= d.start);
     for k in 0..=steps {
@@ -255,11 +258,13 @@ pub fn record(
         }
         for yj in y.iter_mut() {
             let valid = !readings.chance(opts.dropout_rate);
-            if readings.chance(opts.outlier_rate) {
+            let outlier = readings.chance(opts.outlier_rate);
+            if outlier {
                 let sign = if readings.chance(0.5) { 1.0 } else { -1.0 };
                 *yj += sign * opts.outlier_size;
                 tr.outliers += 1;
             }
+            tr.outlier.push(outlier);
             tr.dropped += usize::from(!valid);
             tr.valid.push(valid);
             tr.y.push(*yj);

@@ -89,6 +89,8 @@ pub struct FormatRun {
     pub saturations: u64,
     /// Steps whose measurement failed the innovation gate.
     pub gated: usize,
+    /// Which steps those were (for the plot).
+    pub gated_steps: Vec<usize>,
 }
 
 /// Refuses models the dispatch does not cover.
@@ -337,6 +339,7 @@ fn drive(obs: &mut dyn Stepper, format: Format, traj: &Trajectory) -> FormatRun 
         estimate: Vec::with_capacity((traj.steps + 1) * n),
         saturations: 0,
         gated: 0,
+        gated_steps: Vec::new(),
     };
     obs.push_estimate(n, &mut run.estimate);
     for k in 0..traj.steps {
@@ -345,7 +348,10 @@ fn drive(obs: &mut dyn Stepper, format: Format, traj: &Trajectory) -> FormatRun 
         let valid = traj.valid.get(k * p..(k + 1) * p).unwrap_or(&[]);
         let (status, clamped) = obs.step(u, y, valid);
         run.saturations += u64::from(status.saturations) + u64::from(clamped);
-        run.gated += usize::from(status.outcome == Outcome::Gated);
+        if status.outcome == Outcome::Gated {
+            run.gated += 1;
+            run.gated_steps.push(k);
+        }
         obs.push_estimate(n, &mut run.estimate);
     }
     run

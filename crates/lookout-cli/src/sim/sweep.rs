@@ -69,8 +69,10 @@ fn digest(mut r: RunResult) -> RunResult {
     r.traj.u = Vec::new();
     r.traj.y = Vec::new();
     r.traj.valid = Vec::new();
+    r.traj.outlier = Vec::new();
     for (run, _) in &mut r.formats {
         run.estimate = Vec::new();
+        run.gated_steps = Vec::new();
     }
     r
 }
