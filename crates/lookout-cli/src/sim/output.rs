@@ -12,13 +12,10 @@ use serde_json::{Value, json};
 use std::fmt::Write as _;
 use std::path::Path;
 
-/// Unit of each estimated state ("" where the model gives none; the
-/// disturbance states' units are not in the model).
+/// Unit of each estimated state, disturbance states included ("" where
+/// the model gives none).
 pub fn state_units(design: &Design) -> Vec<String> {
-    let units = design.model.plant.state_units.clone().unwrap_or_default();
-    (0..design.n())
-        .map(|i| units.get(i).cloned().unwrap_or_default())
-        .collect()
+    design.model.state_units()
 }
 
 fn verdict(design: &Design, run: &FormatRun, m: &Metrics, t: f64) -> String {

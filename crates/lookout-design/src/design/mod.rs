@@ -130,10 +130,10 @@ pub struct GateDesign {
     /// Limit on r_j² / S_jj when channels are missing.
     pub channel_limit: f64,
     /// g_k = λ_max(S_0⁻¹ S_k) after k = 1 … K consecutive misses (see
-    /// [`recovery::widening`]); the runtime's limits after k misses are the
+    /// [`recovery::table`]); the runtime's limits after k misses are the
     /// steady ones times g_k, and after K misses it re-acquires.
     pub widening: Vec<f64>,
-    /// Corrections that undo one miss (see [`recovery::per_miss`]).
+    /// Corrections that undo one miss (see [`recovery::table`]).
     pub per_miss: u8,
 }
 

@@ -30,7 +30,7 @@ fn table<'a>(tables: &'a [QuantisedTable], name: &str) -> Option<&'a QuantisedTa
 pub(super) fn header(fx: &FixedDesign, s: &mut String) {
     let _ = writeln!(
         s,
-        "// fixed point: {} (a signal v with scale exponent e is stored as round(v * 2^(F - e)))",
+        "// fixed point: {} (a signal v with scale exponent e is stored as round(v * 2^(b - e)), b the fraction bits)",
         format_name(fx.format)
     );
     let _ = writeln!(
