@@ -418,32 +418,13 @@ fn documented_example_parses() {
 /// output), a ramp's rate per second, and "" where nothing says.
 #[test]
 fn disturbance_states_carry_units() {
-    let text = r#"name = "heater"
-sample_period = 0.1
-
-[plant]
-a = [[-2.0]]
-b = [[0.5]]
-c = [[1.0]]
-state_names = ["temperature"]
-state_units = ["K"]
-input_units = ["W"]
-
-[[disturbances.input]]
-name = "draught"
-input = 0
-shape = "ramp"
-
-[[disturbances.input]]
-name = "sun"
-column = [0.1]
-unit = "W/m2"
-
-[observer]
-form = "predictor"
-poles = [-5.0, -4.0, -3.0, -6.0]
-"#;
-    let model = Model::from_toml_str(text, "heater.toml").unwrap();
+    let text = lag(
+        "state_units = [\"K\"]\ninput_units = [\"W\"]\n\n\
+         [[disturbances.input]]\nname = \"draught\"\ninput = 0\nshape = \"ramp\"\n\n\
+         [[disturbances.input]]\nname = \"sun\"\ncolumn = [0.1]\nunit = \"W/m2\"\n",
+        "poles = [-5.0, -4.0, -3.0, -6.0]",
+    );
+    let model = Model::from_toml_str(&text, "heater.toml").unwrap();
     assert_eq!(model.state_units(), ["K", "W", "W/s", "W/m2"]);
     let no_unit = text.replace("unit = \"W/m2\"\n", "");
     let model = Model::from_toml_str(&no_unit, "heater.toml").unwrap();

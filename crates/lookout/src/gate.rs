@@ -79,6 +79,22 @@ impl<L: Copy> Recovery<L> {
         self.limits.get(usize::from(stage) - 1).copied()
     }
 
+    /// The decision after counter `count`: re-acquire past the table,
+    /// else whether `passes` accepts the limits of the stage (`steady` at
+    /// stage 0).
+    pub(crate) fn decide(
+        &self,
+        count: u16,
+        steady: [L; 2],
+        passes: impl FnOnce([L; 2]) -> bool,
+    ) -> Decision {
+        match self.limits_after(count, steady) {
+            None => Decision::Reacquire,
+            Some(limits) if passes(limits) => Decision::Accept,
+            Some(_) => Decision::Reject,
+        }
+    }
+
     /// The counter after a step with outcome `outcome` (see the type's docs;
     /// it stops one stage past the table).
     pub(crate) fn count_after(&self, count: u16, outcome: Outcome) -> u16 {
@@ -172,14 +188,9 @@ impl<T: Real, const P: usize> Gate<T, P> {
 
     /// The decision after `misses` consecutive misses.
     pub(crate) fn judge(&self, r: &[T; P], used: ChannelMask, misses: u16) -> Decision {
-        match self
-            .recovery
-            .limits_after(misses, [self.limit, self.channel_limit])
-        {
-            None => Decision::Reacquire,
-            Some(limits) if self.passes(r, used, limits) => Decision::Accept,
-            Some(_) => Decision::Reject,
-        }
+        let steady = [self.limit, self.channel_limit];
+        self.recovery
+            .decide(misses, steady, |limits| self.passes(r, used, limits))
     }
 
     fn passes(&self, r: &[T; P], used: ChannelMask, [limit, channel_limit]: [T; 2]) -> bool {

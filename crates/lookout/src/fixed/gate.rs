@@ -22,14 +22,9 @@ impl<Q: Fixed, const P: usize> FixedGate<Q, P> {
     /// The decision after `misses` consecutive misses: the same test with
     /// the widened limits of `recovery`, or re-acquisition past them.
     pub(crate) fn judge(&self, r: &[Q; P], used: ChannelMask, misses: u16) -> Decision {
-        match self
-            .recovery
-            .limits_after(misses, [self.limit, self.channel_limit])
-        {
-            None => Decision::Reacquire,
-            Some(limits) if self.passes(r, used, limits) => Decision::Accept,
-            Some(_) => Decision::Reject,
-        }
+        let steady = [self.limit, self.channel_limit];
+        self.recovery
+            .decide(misses, steady, |limits| self.passes(r, used, limits))
     }
 
     fn passes(&self, r: &[Q; P], used: ChannelMask, [limit, channel_limit]: [Q::Acc; 2]) -> bool {
