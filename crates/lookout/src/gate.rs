@@ -9,19 +9,24 @@ pub const GATE_STAGES: usize = 16;
 
 /// How a gate widens after consecutive misses, and when it gives up testing.
 ///
-/// After k consecutive samples without a correction (gated, or no usable
-/// channel) the observer's a-priori error covariance has grown, with no
-/// correction, as P_k = A P_{k−1} Aᵀ + Q, so the innovation covariance is
+/// A reading is usually missed because it was rejected, and a rejected
+/// innovation was large, so the error behind it is larger than usual: given
+/// the rejection its covariance is P_r = P_0 + (μ − 1) P_0 Cᵀ S_0⁻¹ C P_0,
+/// μ = E\[ν | ν > limit\] / P. After k consecutive samples without a
+/// correction it has grown, with no correction, as P_1 = A P_r Aᵀ + Q,
+/// P_k = A P_{k−1} Aᵀ + Q, so the innovation covariance is
 /// S_k = C P_k Cᵀ + R instead of the steady S = S_0. The design computes
 /// g_k = λ_max(S_0⁻¹ S_k) (the largest generalised eigenvalue, ≥ 1) and
 /// stores the limits widened by it: `limits[k − 1]` = \[`limit` · g_k,
-/// `channel_limit` · g_k\] for k = 1 … `stages`.
+/// `channel_limit` · g_k\] for k = 1 … `stages` (see the design crate's
+/// `recovery::table`).
 ///
 /// Since rᵀ S_k⁻¹ r ≤ c implies rᵀ S_0⁻¹ r ≤ g_k c (and the same for one
 /// channel, r_j² / S_k,jj ≤ c implies r_j² / S_0,jj ≤ g_k c, a Rayleigh
 /// quotient of the same pencil), the widened test rejects a reading whose
-/// innovation has covariance S_k with probability at most that of the steady
-/// test, 1 − p: exactly 1 − p with one output, at most 1 − p with more.
+/// innovation has covariance S_k or less with probability at most that of
+/// the steady test, 1 − p (exactly 1 − p with one output and covariance
+/// S_k).
 ///
 /// The observer keeps one counter c. A sample without a correction adds
 /// `per_miss` to it, a corrected one takes 1 off, and the test uses stage
