@@ -72,6 +72,9 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
     }
 
     /// Measurement update: x̂\[k|k\] = x̂\[k|k−1\] + K r\[k\].
+    ///
+    /// Each call counts as one sample for the gate's counter of misses
+    /// (see [`Recovery`](crate::Recovery)).
     pub fn correct(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
         if !all_finite(u) {
             return Status::rejected_input(P);
@@ -80,7 +83,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
         let (r, status) = innovation(
             &plant.c,
             &plant.d,
-            self.tables.gate.as_ref().map(|g| (g, self.misses)),
+            self.tables.gate.as_ref().map(|g| (g, &mut self.misses)),
             &self.predicted,
             u,
             y,
@@ -91,14 +94,6 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
             self.tables.k.mul_add_to(&r, &mut self.filtered);
         }
         self.r = r;
-        if self.pending.is_none() {
-            // A second correction of the same sample does not count again.
-            self.misses = misses_after(
-                self.tables.gate.as_ref().map(|g| &g.recovery),
-                self.misses,
-                status.outcome,
-            );
-        }
         self.pending = Some(status);
         status
     }

@@ -1,6 +1,5 @@
 //! The predictor (Luenberger) observer.
 
-use crate::gate::misses_after;
 use crate::measurement::{all_finite, innovation};
 use crate::{ChannelMask, PredictorTables, Real, Status};
 
@@ -67,7 +66,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
         let (r, status) = innovation(
             &plant.c,
             &plant.d,
-            self.tables.gate.as_ref().map(|g| (g, self.misses)),
+            self.tables.gate.as_ref().map(|g| (g, &mut self.misses)),
             &self.x,
             u,
             y,
@@ -80,11 +79,6 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
         }
         self.x = next;
         self.r = r;
-        self.misses = misses_after(
-            self.tables.gate.as_ref().map(|g| &g.recovery),
-            self.misses,
-            status.outcome,
-        );
         status
     }
 

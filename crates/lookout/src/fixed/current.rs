@@ -81,7 +81,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
         let mut sat = Saturations::default();
         let (r, mut status) = innovation(
             &t.output,
-            t.gate.as_ref().map(|g| (g, self.misses)),
+            t.gate.as_ref().map(|g| (g, &mut self.misses)),
             &self.predicted,
             u,
             y,
@@ -98,13 +98,6 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
         }
         self.r = r;
         status.saturations = sat.0;
-        if self.pending.is_none() {
-            self.misses = misses_after(
-                self.tables.gate.as_ref().map(|g| &g.recovery),
-                self.misses,
-                status.outcome,
-            );
-        }
         self.pending = Some(status);
         status
     }

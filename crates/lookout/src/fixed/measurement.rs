@@ -38,9 +38,29 @@ pub(crate) fn initial_status<const P: usize>(requested: ChannelMask) -> (Channel
 
 /// The innovation r = y − ŷ on the channels that correct the estimate (zero
 /// on the others), each element rounded once and stored saturating, and the
-/// status saying which channels those are; `gate` comes with the observer's count
-/// of consecutive misses (see [`Recovery`](crate::Recovery)).
+/// status saying which channels those are; `gate` comes with the observer's
+/// counter of misses, which it updates (see [`Recovery`](crate::Recovery)).
 pub(crate) fn innovation<Q: Fixed, const N: usize, const M: usize, const P: usize>(
+    out: &FixedOutputMap<Q, N, M, P>,
+    gate: Option<(&FixedGate<Q, P>, &mut u16)>,
+    x: &[Q; N],
+    u: &[Q; M],
+    y: &[Q; P],
+    requested: ChannelMask,
+    sat: &mut Saturations,
+) -> ([Q; P], Status) {
+    match gate {
+        None => tested(out, None, x, u, y, requested, sat),
+        Some((g, count)) => {
+            let result = tested(out, Some((g, *count)), x, u, y, requested, sat);
+            *count = g.recovery.count_after(*count, result.1.outcome);
+            result
+        }
+    }
+}
+
+#[inline(always)]
+fn tested<Q: Fixed, const N: usize, const M: usize, const P: usize>(
     out: &FixedOutputMap<Q, N, M, P>,
     gate: Option<(&FixedGate<Q, P>, u16)>,
     x: &[Q; N],

@@ -4,7 +4,6 @@ use super::arith::{Saturations, mul_acc};
 use super::format::{Fixed, Wide};
 use super::measurement::innovation;
 use super::tables::FixedPredictorTables;
-use crate::gate::misses_after;
 use crate::{ChannelMask, Status};
 
 /// Discrete predictor (Luenberger) observer in Q15 or Q31, integer only.
@@ -69,17 +68,12 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
         let mut sat = Saturations::default();
         let (r, mut status) = innovation(
             &t.output,
-            t.gate.as_ref().map(|g| (g, self.misses)),
+            t.gate.as_ref().map(|g| (g, &mut self.misses)),
             &self.x,
             u,
             y,
             valid,
             &mut sat,
-        );
-        self.misses = misses_after(
-            self.tables.gate.as_ref().map(|g| &g.recovery),
-            self.misses,
-            status.outcome,
         );
         let mut acc = [<Q::Acc as Wide>::ZERO; N];
         mul_acc(&t.a, &self.x, &mut acc);
