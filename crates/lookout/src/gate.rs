@@ -28,16 +28,21 @@ pub const GATE_STAGES: usize = 16;
 /// the steady test, 1 − p (exactly 1 − p with one output and covariance
 /// S_k).
 ///
-/// The observer keeps one counter c. A sample without a correction adds
-/// `per_miss` to it, a corrected one takes 1 off, and the test uses stage
+/// The observer keeps one counter c. A rejected reading adds `per_miss` to
+/// it, a sample without any usable reading adds 1 (nothing was rejected, so
+/// the error is not conditioned on a large innovation: its excess is the
+/// plain A P_0 Aᵀ + Q − P_0, far below a rejection's; a stated choice), a
+/// corrected sample takes 1 off, and the test uses stage
 /// k = ⌈c / `per_miss`⌉. `per_miss` is the number of corrections after which
-/// the excess covariance one miss leaves has decayed (through the error
-/// dynamics F) to 1 % of its size, so the gate narrows back as the
+/// the excess covariance one rejection leaves has decayed (through the
+/// error dynamics F) to 1 % of its size, so the gate narrows back as the
 /// covariance does instead of at once.
 ///
 /// Re-acquisition: past stage `stages` (more consecutive misses than the
 /// table covers) the next reading with a usable channel is applied untested,
-/// and the step reports [`Outcome::Reacquired`]. `stages` = 0 turns recovery
+/// and the step reports [`Outcome::Reacquired`]; the counter stops one stage
+/// past the table, so up to `per_miss` readings in a row are re-acquired
+/// before the widest test applies again. `stages` = 0 turns recovery
 /// off: the steady test is used after any number of misses, and a gated
 /// observer can lose lock for good.
 ///
@@ -107,7 +112,8 @@ impl<L: Copy> Recovery<L> {
         let top = (u16::from(self.stages) + 1).saturating_mul(per);
         match outcome {
             Outcome::Corrected | Outcome::Reacquired => count.saturating_sub(1),
-            Outcome::Gated | Outcome::PredictedOnly => count.saturating_add(per).min(top),
+            Outcome::Gated => count.saturating_add(per).min(top),
+            Outcome::PredictedOnly => count.saturating_add(1).min(top),
             Outcome::InputRejected => count,
         }
     }

@@ -20,10 +20,11 @@ pub fn state_units(design: &Design) -> Vec<String> {
 
 fn verdict(design: &Design, run: &FormatRun, m: &Metrics, t: f64) -> String {
     let tail = format!(
-        "{} saturation{}, {} gated",
+        "{} saturation{}, {} gated, {} re-acquired",
         run.saturations,
         if run.saturations == 1 { "" } else { "s" },
-        run.gated
+        run.gated,
+        run.reacquired
     );
     let names = design.state_names();
     let name = |i: usize| names.get(i).map_or("?", String::as_str);
@@ -192,6 +193,7 @@ pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
                 "max_deviation_from_f64": m.max_deviation_from_f64,
                 "saturations": run.saturations,
                 "gated": run.gated,
+                "reacquired": run.reacquired,
                 "dropped": r.traj.dropped,
                 "stable": m.stable,
                 "converged": m.converged,

@@ -91,6 +91,8 @@ pub struct FormatRun {
     pub gated: usize,
     /// Which steps those were (for the plot).
     pub gated_steps: Vec<usize>,
+    /// Steps whose reading the gate applied untested after too many misses.
+    pub reacquired: usize,
 }
 
 /// Refuses models the dispatch does not cover.
@@ -340,6 +342,7 @@ fn drive(obs: &mut dyn Stepper, format: Format, traj: &Trajectory) -> FormatRun 
         saturations: 0,
         gated: 0,
         gated_steps: Vec::new(),
+        reacquired: 0,
     };
     obs.push_estimate(n, &mut run.estimate);
     for k in 0..traj.steps {
@@ -352,6 +355,7 @@ fn drive(obs: &mut dyn Stepper, format: Format, traj: &Trajectory) -> FormatRun 
             run.gated += 1;
             run.gated_steps.push(k);
         }
+        run.reacquired += usize::from(status.outcome == Outcome::Reacquired);
         obs.push_estimate(n, &mut run.estimate);
     }
     run
