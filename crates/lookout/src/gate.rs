@@ -79,10 +79,11 @@ impl<L: Copy> Recovery<L> {
     /// The limits \[every channel, one channel\] at counter `count`,
     /// `steady` at stage 0; `None` when the gate re-acquires.
     pub(crate) fn limits_after(&self, count: u16, steady: [L; 2]) -> Option<[L; 2]> {
-        let stage = self.stage(count);
-        if stage == 0 || self.stages == 0 {
+        // The usual case first, without the division.
+        if count == 0 || self.stages == 0 {
             return Some(steady);
         }
+        let stage = self.stage(count);
         if stage > u16::from(self.stages) {
             return None;
         }
@@ -108,14 +109,18 @@ impl<L: Copy> Recovery<L> {
     /// The counter after a step with outcome `outcome` (see the type's docs;
     /// it stops one stage past the table).
     pub(crate) fn count_after(&self, count: u16, outcome: Outcome) -> u16 {
-        let per = u16::from(self.per_miss.max(1));
-        let top = (u16::from(self.stages) + 1).saturating_mul(per);
         match outcome {
             Outcome::Corrected | Outcome::Reacquired => count.saturating_sub(1),
-            Outcome::Gated => count.saturating_add(per).min(top),
-            Outcome::PredictedOnly => count.saturating_add(1).min(top),
+            Outcome::Gated => self.raise(count, u16::from(self.per_miss.max(1))),
+            Outcome::PredictedOnly => self.raise(count, 1),
             Outcome::InputRejected => count,
         }
+    }
+
+    /// `count + by`, stopping one stage past the table.
+    fn raise(&self, count: u16, by: u16) -> u16 {
+        let top = (u16::from(self.stages) + 1).saturating_mul(u16::from(self.per_miss.max(1)));
+        count.saturating_add(by).min(top)
     }
 }
 

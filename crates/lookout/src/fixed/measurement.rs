@@ -49,14 +49,12 @@ pub(crate) fn innovation<Q: Fixed, const N: usize, const M: usize, const P: usiz
     requested: ChannelMask,
     sat: &mut Saturations,
 ) -> ([Q; P], Status) {
-    match gate {
-        None => tested(out, None, x, u, y, requested, sat),
-        Some((g, count)) => {
-            let result = tested(out, Some((g, *count)), x, u, y, requested, sat);
-            *count = g.recovery.count_after(*count, result.1.outcome);
-            result
-        }
+    let judged = gate.as_ref().map(|(g, count)| (*g, **count));
+    let result = tested(out, judged, x, u, y, requested, sat);
+    if let Some((g, count)) = gate {
+        *count = g.recovery.count_after(*count, result.1.outcome);
     }
+    result
 }
 
 #[inline(always)]
