@@ -80,6 +80,9 @@ fn statistics(m: &Metrics, n: usize) -> String {
     if let Some(why) = &m.untested {
         parts.push(format!("consistency not tested: {why}"));
     }
+    if m.nees.is_none() && m.nis.is_none() {
+        return parts.join("; ");
+    }
     format!(
         "tests at {:.3} % each ({} % for the run): {}",
         100.0 * super::reference::test_confidence(n),
