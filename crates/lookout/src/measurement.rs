@@ -1,6 +1,6 @@
 //! Checks of a step's inputs and the innovation, shared by the float observers.
 
-use crate::gate::{Decision, Gate};
+use crate::gate::Gate;
 use crate::{ChannelMask, Matrix, Outcome, Real, Status};
 
 #[inline(always)]
@@ -74,10 +74,12 @@ fn tested<T: Real, const N: usize, const M: usize, const P: usize>(
             *rj = T::ZERO;
         }
     }
-    let decision = gate.map_or(Decision::Accept, |(g, misses)| g.judge(&r, present, misses));
-    status.outcome = decision.outcome();
-    if decision == Decision::Reject {
-        return ([T::ZERO; P], status);
+    status.outcome = Outcome::Corrected;
+    if let Some((g, misses)) = gate {
+        status.outcome = g.judge(&r, present, misses).outcome();
+        if status.outcome == Outcome::Gated {
+            return ([T::ZERO; P], status);
+        }
     }
     status.used = present;
     (r, status)

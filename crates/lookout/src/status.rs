@@ -85,16 +85,17 @@ pub enum Outcome {
     /// The measurement corrected the estimate through the channels in
     /// [`Status::used`].
     Corrected,
+    /// The gate re-acquired: after more consecutive misses than its recovery
+    /// table covers (see [`Recovery`](crate::Recovery)), the measurement was
+    /// applied untested through the channels in [`Status::used`].
+    // Next to `Corrected`, so `corrected()` is one comparison.
+    Reacquired,
     /// No channel was usable (none given, all masked or non-finite): the
     /// estimate was only predicted, x̂ ← A x̂ + B u.
     PredictedOnly,
     /// The innovation failed the gate test: the measurement was not applied
     /// and the estimate was only predicted.
     Gated,
-    /// The gate re-acquired: after more consecutive misses than its recovery
-    /// table covers (see [`Recovery`](crate::Recovery)), the measurement was
-    /// applied untested through the channels in [`Status::used`].
-    Reacquired,
     /// An input was not finite: the step was refused and the state left
     /// exactly as it was.
     InputRejected,

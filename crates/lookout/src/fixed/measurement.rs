@@ -3,7 +3,6 @@
 use super::arith::{Saturations, mul_acc, round_row};
 use super::format::{Fixed, Wide};
 use super::tables::{FixedGate, FixedOutputMap};
-use crate::gate::Decision;
 use crate::{ChannelMask, Outcome, Status};
 
 /// ŷ = C x + D u per output, rounded to the output's LSB but not yet
@@ -78,10 +77,12 @@ fn tested<Q: Fixed, const N: usize, const M: usize, const P: usize>(
             *rj = sat.store(yj.widen().sat_sub(pj));
         }
     }
-    let decision = gate.map_or(Decision::Accept, |(g, misses)| g.judge(&r, present, misses));
-    status.outcome = decision.outcome();
-    if decision == Decision::Reject {
-        return ([Q::ZERO; P], status);
+    status.outcome = Outcome::Corrected;
+    if let Some((g, misses)) = gate {
+        status.outcome = g.judge(&r, present, misses).outcome();
+        if status.outcome == Outcome::Gated {
+            return ([Q::ZERO; P], status);
+        }
     }
     status.used = present;
     (r, status)
