@@ -36,12 +36,14 @@ pub(crate) fn innovation<T: Real, const N: usize, const M: usize, const P: usize
     y: &[T; P],
     requested: ChannelMask,
 ) -> ([T; P], Status) {
-    let judged = gate.as_ref().map(|(g, count)| (*g, **count));
-    let out = tested(c, d, judged, x, u, y, requested);
-    if let Some((g, count)) = gate {
-        *count = g.recovery.count_after(*count, out.1.outcome);
+    match gate {
+        None => tested(c, d, None, x, u, y, requested),
+        Some((g, count)) => {
+            let out = tested(c, d, Some((g, *count)), x, u, y, requested);
+            *count = g.recovery.count_after(*count, out.1.outcome);
+            out
+        }
     }
-    out
 }
 
 #[inline(always)]

@@ -63,15 +63,12 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
             return Status::rejected_input(P);
         }
         let plant = &self.tables.plant;
-        let (r, status) = innovation(
-            &plant.c,
-            &plant.d,
-            self.tables.gate.as_ref().map(|g| (g, &mut self.misses)),
-            &self.x,
-            u,
-            y,
-            valid,
-        );
+        let (c, d, x) = (&plant.c, &plant.d, &self.x);
+        // Two calls, so the ungated one is specialised without the counter.
+        let (r, status) = match &self.tables.gate {
+            None => innovation(c, d, None, x, u, y, valid),
+            Some(g) => innovation(c, d, Some((g, &mut self.misses)), x, u, y, valid),
+        };
         let mut next = plant.a.mul(&self.x);
         plant.b.mul_add_to(u, &mut next);
         if status.corrected() {
