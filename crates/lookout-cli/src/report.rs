@@ -48,7 +48,7 @@ fn names(given: Option<&[String]>, units: Option<&[String]>, count: usize, prefi
                 .and_then(|g| g.get(i))
                 .cloned()
                 .unwrap_or_else(|| format!("{prefix}{i}"));
-            match units.and_then(|u| u.get(i)) {
+            match units.and_then(|u| u.get(i)).filter(|u| !u.is_empty()) {
                 Some(unit) => format!("{name} [{unit}]"),
                 None => name,
             }
@@ -94,7 +94,7 @@ pub fn design(d: &Design) -> String {
         "states          {}",
         names(
             Some(&d.state_names()),
-            plant.state_units.as_deref(),
+            Some(&d.model.state_units()),
             d.n(),
             "x"
         )
@@ -283,7 +283,7 @@ fn fixed_point(s: &mut String, d: &Design, fx: &lookout_design::fixed_point::Fix
     let names = d.state_names();
     let _ = writeln!(
         s,
-        "fixed point     {} (value v at scale exponent e stored as round(v · 2^(F − e)))",
+        "fixed point     {} (value v at scale exponent e stored as round(v · 2^(b − e)), b the fraction bits)",
         format_name(fx.format)
     );
     let p = &fx.proof;
