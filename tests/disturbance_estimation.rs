@@ -4,7 +4,7 @@
 //! recursion predicts.
 #![allow(clippy::needless_range_loop)] // indices are matrix positions here
 
-use lookout::PredictorObserver;
+use lookout::{Observer, PredictorObserver};
 use lookout_design::model::{Entry, Model};
 use lookout_suite::conveyor_f64::conveyor;
 use lookout_suite::conveyor_load_f64::conveyor_load;

@@ -6,8 +6,8 @@
 #![allow(clippy::needless_range_loop)] // indices are matrix positions here
 
 use lookout::{
-    CurrentObserver, CurrentTables, FixedCurrentObserver, Outcome, Q31, Recovery, dequantise_real,
-    quantise_real,
+    CurrentObserver, CurrentTables, FixedCurrentObserver, Observer, Outcome, Q31, Recovery,
+    dequantise_real, quantise_real,
 };
 use lookout_suite::conveyor_kalman_f64::conveyor_kalman::CURRENT;
 use std::path::Path;

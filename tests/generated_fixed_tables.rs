@@ -6,7 +6,8 @@
 #![allow(clippy::needless_range_loop)] // i indexes states across several arrays
 
 use lookout::{
-    FixedFusedTables, FixedPredictorObserver, FixedPredictorTables, PredictorObserver, Q31,
+    FixedFusedTables, FixedPredictorObserver, FixedPredictorTables, Observer, PredictorObserver,
+    Q31,
 };
 use lookout_design::fixed_point::bounds;
 use lookout_suite::conveyor_f64::conveyor;

@@ -3,7 +3,7 @@
 //! drive the runtime observers to the true state.
 #![allow(clippy::needless_range_loop)] // indices are matrix positions here
 
-use lookout::{CurrentObserver, FusedObserver, PredictorObserver};
+use lookout::{CurrentObserver, FusedObserver, Observer, PredictorObserver};
 use lookout_design::model::Model;
 use lookout_suite::{conveyor_f32, conveyor_f64, conveyor_kalman_f64};
 use std::path::Path;

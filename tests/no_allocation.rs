@@ -11,8 +11,8 @@ mod scenario;
 use lookout::{
     ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedGate, FixedPredictorObserver, FixedPredictorTables,
-    FusedObserver, FusedTables, Gate, Matrix, Plant, PredictorObserver, PredictorTables, Q15, Q31,
-    Real,
+    FusedObserver, FusedTables, Gate, Matrix, Observer, Plant, PredictorObserver, PredictorTables,
+    Q15, Q31, Real,
 };
 use scenario::Scenario;
 use stats_alloc::{INSTRUMENTED_SYSTEM, Region, StatsAlloc};

@@ -13,7 +13,7 @@ use fixed_hand::{FixedDynamic, FixedLoop, FixedStatic, FixedTables, Word};
 use float_hand::{FloatDynamic, FloatLoop, FloatStatic, FloatTables};
 use lookout::{
     CurrentObserver, FixedCurrentObserver, FixedFusedObserver, FixedPredictorObserver,
-    FusedObserver, Matrix, PredictorObserver, Q15, Q31, Real,
+    FusedObserver, Matrix, Observer, PredictorObserver, Q15, Q31, Real,
 };
 use nalgebra::RealField;
 use scenario::{Scenario, macs_full, macs_fused};
@@ -45,31 +45,22 @@ pub trait Stepper<W, const N: usize, const M: usize, const P: usize> {
     fn set_state(&mut self, x: [W; N]);
 }
 
-macro_rules! lookout_stepper {
-    ($ty:ident, $bound:path, $state:ident $(, $k:ident)?) => {
-        impl<W: $bound, const N: usize, const M: usize, const P: usize $(, $k: lookout::Accumulation)?>
-            Stepper<W, N, M, P> for $ty<'_, W, N, M, P $(, $k)?>
-        {
-            #[inline]
-            fn step(&mut self, u: &[W; M], y: &[W; P]) {
-                // The status is part of the step's work: keep it.
-                black_box(self.step(u, y));
-            }
-            fn state(&self) -> [W; N] {
-                *self.$state()
-            }
-            fn set_state(&mut self, x: [W; N]) {
-                self.set_state(x);
-            }
-        }
-    };
+/// Every lookout observer is a stepper through the runtime's one interface.
+impl<W: Copy, O: Observer<N, M, P, Scalar = W>, const N: usize, const M: usize, const P: usize>
+    Stepper<W, N, M, P> for O
+{
+    #[inline]
+    fn step(&mut self, u: &[W; M], y: &[W; P]) {
+        // The status is part of the step's work: keep it.
+        black_box(Observer::step(self, u, y));
+    }
+    fn state(&self) -> [W; N] {
+        *self.estimate()
+    }
+    fn set_state(&mut self, x: [W; N]) {
+        Observer::set_state(self, x);
+    }
 }
-lookout_stepper!(PredictorObserver, Real, estimate);
-lookout_stepper!(CurrentObserver, Real, predicted);
-lookout_stepper!(FusedObserver, Real, estimate);
-lookout_stepper!(FixedPredictorObserver, lookout::Fixed, estimate, K);
-lookout_stepper!(FixedCurrentObserver, lookout::Fixed, predicted, K);
-lookout_stepper!(FixedFusedObserver, lookout::Fixed, estimate, K);
 
 /// `k` steps of `s`. The state is passed through `black_box` before every
 /// step, so it lives in memory as an observer in a `static` does in

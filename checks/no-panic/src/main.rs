@@ -5,7 +5,7 @@
 use lookout::{
     Accumulation, ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorObserver,
-    FixedPredictorTables, FusedObserver, FusedTables, Matrix, Plant, PredictorObserver,
+    FixedPredictorTables, FusedObserver, FusedTables, Matrix, Observer, Plant, PredictorObserver,
     PredictorTables, Q15, Q31, Real, Scales, Status,
 };
 use no_panic::no_panic;
@@ -20,29 +20,19 @@ macro_rules! checks {
             const M: usize = $m;
             const P: usize = $p;
 
+            /// Every observer's step and prediction, through the runtime's
+            /// one interface (each instance is checked).
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn predictor_step(o: &mut PredictorObserver<'_, T, N, M, P>, u: &[T; M], y: &[T; P], v: ChannelMask) -> Status {
+            pub fn step<O: Observer<N, M, P, Scalar = T>>(o: &mut O, u: &[T; M], y: &[T; P], v: ChannelMask) -> Status {
                 o.step_masked(u, y, v)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn predictor_predict(o: &mut PredictorObserver<'_, T, N, M, P>, u: &[T; M]) -> Status {
+            pub fn predict<O: Observer<N, M, P, Scalar = T>>(o: &mut O, u: &[T; M]) -> Status {
                 o.predict(u)
-            }
-            #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn current_step(o: &mut CurrentObserver<'_, T, N, M, P>, u: &[T; M], y: &[T; P], v: ChannelMask) -> Status {
-                o.step_masked(u, y, v)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
             pub fn current_split(o: &mut CurrentObserver<'_, T, N, M, P>, u: &[T; M], y: &[T; P], v: ChannelMask) -> Status {
                 o.correct(u, y, v);
-                o.predict(u)
-            }
-            #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn fused_step(o: &mut FusedObserver<'_, T, N, M, P>, u: &[T; M], y: &[T; P], v: ChannelMask) -> Status {
-                o.step_masked(u, y, v)
-            }
-            #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn fused_predict(o: &mut FusedObserver<'_, T, N, M, P>, u: &[T; M]) -> Status {
                 o.predict(u)
             }
 
@@ -74,12 +64,12 @@ macro_rules! checks {
                 let mut po = PredictorObserver::new(&pt, [seed; N]);
                 let mut co = CurrentObserver::new(&ct, [seed; N]);
                 let mut fo = FusedObserver::new(&ft, [seed; N]);
-                black_box(predictor_step(&mut po, &u, &y, v));
-                black_box(predictor_predict(&mut po, &u));
-                black_box(current_step(&mut co, &u, &y, v));
+                black_box(step(&mut po, &u, &y, v));
+                black_box(predict(&mut po, &u));
+                black_box(step(&mut co, &u, &y, v));
                 black_box(current_split(&mut co, &u, &y, v));
-                black_box(fused_step(&mut fo, &u, &y, v));
-                black_box(fused_predict(&mut fo, &u));
+                black_box(step(&mut fo, &u, &y, v));
+                black_box(predict(&mut fo, &u));
                 black_box((po.estimate(), co.filtered(), fo.estimate()));
             }
         }
@@ -99,29 +89,19 @@ macro_rules! fixed_checks {
             const M: usize = $m;
             const P: usize = $p;
 
+            /// Every observer's step and prediction, through the runtime's
+            /// one interface (each instance is checked).
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn predictor_step<K: Accumulation>(o: &mut FixedPredictorObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
+            pub fn step<O: Observer<N, M, P, Scalar = Q>>(o: &mut O, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
                 o.step_masked(u, y, v)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn predictor_predict<K: Accumulation>(o: &mut FixedPredictorObserver<'_, Q, N, M, P, K>, u: &[Q; M]) -> Status {
+            pub fn predict<O: Observer<N, M, P, Scalar = Q>>(o: &mut O, u: &[Q; M]) -> Status {
                 o.predict(u)
-            }
-            #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn current_step<K: Accumulation>(o: &mut FixedCurrentObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
-                o.step_masked(u, y, v)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
             pub fn current_split<K: Accumulation>(o: &mut FixedCurrentObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
                 o.correct(u, y, v);
-                o.predict(u)
-            }
-            #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn fused_step<K: Accumulation>(o: &mut FixedFusedObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
-                o.step_masked(u, y, v)
-            }
-            #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn fused_predict<K: Accumulation>(o: &mut FixedFusedObserver<'_, Q, N, M, P, K>, u: &[Q; M]) -> Status {
                 o.predict(u)
             }
 
@@ -132,12 +112,12 @@ macro_rules! fixed_checks {
                 mut fo: FixedFusedObserver<'_, Q, N, M, P, K>,
                 (u, y, v): (&[Q; M], &[Q; P], ChannelMask),
             ) {
-                black_box(predictor_step(&mut po, u, y, v));
-                black_box(predictor_predict(&mut po, u));
-                black_box(current_step(&mut co, u, y, v));
+                black_box(step(&mut po, u, y, v));
+                black_box(predict(&mut po, u));
+                black_box(step(&mut co, u, y, v));
                 black_box(current_split(&mut co, u, y, v));
-                black_box(fused_step(&mut fo, u, y, v));
-                black_box(fused_predict(&mut fo, u));
+                black_box(step(&mut fo, u, y, v));
+                black_box(predict(&mut fo, u));
                 black_box((po.estimate(), co.filtered(), fo.estimate()));
             }
 

@@ -3,7 +3,9 @@
 //! exceeded; the runtime run on the chosen scales never saturates; a case
 //! that Q15 rounding destabilises is refused and passes in Q31.
 
-use lookout::{FixedFusedObserver, FixedFusedTables, FusedTables, Matrix, Q31, Scales};
+use lookout::{
+    FixedFusedObserver, FixedFusedTables, FusedTables, Matrix, Observer as _, Q31, Scales,
+};
 use lookout_design::fixed_point::{self, FloatTables, bounds};
 use lookout_design::model::{FixedFormat, FixedPointSpec, Form};
 use nalgebra::{DMatrix, DVector};

@@ -57,11 +57,6 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
         }
     }
 
-    /// Correct then predict, with every channel of `y` offered.
-    pub fn step(&mut self, u: &[T; M], y: &[T; P]) -> Status {
-        self.step_masked(u, y, ChannelMask::all(P))
-    }
-
     /// Correct then predict, using only the channels in `valid`.
     pub fn step_masked(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
         let status = self.correct(u, y, valid);
@@ -139,29 +134,10 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
         &self.predicted
     }
 
-    /// The innovation of the last correction (zero on channels it did not use).
-    pub const fn innovation(&self) -> &[T; P] {
-        &self.r
-    }
-
-    /// Replaces both estimates with `x` (taken as the prediction for the
-    /// coming sample).
-    pub fn set_state(&mut self, x: [T; N]) {
-        self.predicted = x;
-        self.filtered = x;
-        self.pending = None;
-        self.misses = 0;
-    }
-
-    /// Returns to the estimate given to [`new`](Self::new) and clears the
-    /// innovation.
-    pub fn reset(&mut self) {
-        self.set_state(self.initial);
-        self.r = [T::ZERO; P];
-    }
-
     /// The tables the observer runs on.
     pub const fn tables(&self) -> &'t CurrentTables<T, N, M, P> {
         self.tables
     }
 }
+
+observer!(['t, T: Real, const N: usize, const M: usize, const P: usize] CurrentObserver<'t, T, N, M, P>, T, current, two_pass, |o| Some(&o.r), float);

@@ -44,11 +44,6 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
         }
     }
 
-    /// One step with every channel of `y` offered.
-    pub fn step(&mut self, u: &[T; M], y: &[T; P]) -> Status {
-        self.step_masked(u, y, ChannelMask::all(P))
-    }
-
     /// One step using only the channels in `valid` (and of those only the
     /// finite ones).
     pub fn step_masked(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
@@ -148,39 +143,10 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
         status
     }
 
-    /// One step without a measurement: every channel stands in by its
-    /// prediction, so x̂ ← A x̂ + B u up to rounding.
-    pub fn predict(&mut self, u: &[T; M]) -> Status {
-        self.step_masked(u, &[T::ZERO; P], ChannelMask::NONE)
-    }
-
-    /// The estimate x̂\[k\].
-    pub const fn estimate(&self) -> &[T; N] {
-        &self.x
-    }
-
-    /// The innovation of the last step, when the tables have a gate (the
-    /// step only forms it then); `None` otherwise.
-    pub fn innovation(&self) -> Option<&[T; P]> {
-        self.tables.gate.as_ref().map(|_| &self.r)
-    }
-
-    /// Replaces the estimate.
-    pub fn set_state(&mut self, x: [T; N]) {
-        self.x = x;
-        self.misses = 0;
-    }
-
-    /// Returns to the estimate given to [`new`](Self::new) and clears the
-    /// innovation.
-    pub fn reset(&mut self) {
-        self.x = self.initial;
-        self.r = [T::ZERO; P];
-        self.misses = 0;
-    }
-
     /// The tables the observer runs on.
     pub const fn tables(&self) -> &'t FusedTables<T, N, M, P> {
         self.tables
     }
 }
+
+observer!(['t, T: Real, const N: usize, const M: usize, const P: usize] FusedObserver<'t, T, N, M, P>, T, one, fused, |o| o.tables.gate.as_ref().map(|_| &o.r), float);

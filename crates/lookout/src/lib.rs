@@ -32,7 +32,7 @@
 //! after two steps.
 //!
 //! ```
-//! use lookout::{Matrix, Plant, PredictorObserver, PredictorTables};
+//! use lookout::{Matrix, Observer, Plant, PredictorObserver, PredictorTables};
 //!
 //! const T: f64 = 0.01;
 //! static CART: PredictorTables<f64, 2, 1, 1> = PredictorTables {
@@ -107,6 +107,8 @@
     clippy::indexing_slicing
 )]
 
+#[macro_use]
+mod observer;
 mod chi_square;
 mod current;
 mod fixed;
@@ -130,6 +132,7 @@ pub use fixed::{
 pub use fused::FusedObserver;
 pub use gate::{GATE_STAGES, Gate, Recovery};
 pub use matrix::Matrix;
+pub use observer::Observer;
 pub use predictor::PredictorObserver;
 pub use real::Real;
 pub use status::{ChannelMask, Outcome, Status};

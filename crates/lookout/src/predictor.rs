@@ -51,11 +51,6 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
         }
     }
 
-    /// One step with every channel of `y` offered.
-    pub fn step(&mut self, u: &[T; M], y: &[T; P]) -> Status {
-        self.step_masked(u, y, ChannelMask::all(P))
-    }
-
     /// One step using only the channels in `valid` (and of those only the
     /// finite ones).
     pub fn step_masked(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
@@ -81,37 +76,10 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
         status
     }
 
-    /// One step without a measurement: x̂ ← A x̂ + B u.
-    pub fn predict(&mut self, u: &[T; M]) -> Status {
-        self.step_masked(u, &[T::ZERO; P], ChannelMask::NONE)
-    }
-
-    /// The estimate x̂\[k\] (the state after the last step).
-    pub const fn estimate(&self) -> &[T; N] {
-        &self.x
-    }
-
-    /// The innovation of the last step (zero on channels it did not use).
-    pub const fn innovation(&self) -> &[T; P] {
-        &self.r
-    }
-
-    /// Replaces the estimate.
-    pub fn set_state(&mut self, x: [T; N]) {
-        self.x = x;
-        self.misses = 0;
-    }
-
-    /// Returns to the estimate given to [`new`](Self::new) and clears the
-    /// innovation.
-    pub fn reset(&mut self) {
-        self.x = self.initial;
-        self.r = [T::ZERO; P];
-        self.misses = 0;
-    }
-
     /// The tables the observer runs on.
     pub const fn tables(&self) -> &'t PredictorTables<T, N, M, P> {
         self.tables
     }
 }
+
+observer!(['t, T: Real, const N: usize, const M: usize, const P: usize] PredictorObserver<'t, T, N, M, P>, T, one, two_pass, |o| Some(&o.r), float);

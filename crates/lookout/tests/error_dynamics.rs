@@ -4,7 +4,9 @@
 
 mod common;
 use common::*;
-use lookout::{CurrentObserver, CurrentTables, Matrix, Plant, PredictorObserver, PredictorTables};
+use lookout::{
+    CurrentObserver, CurrentTables, Matrix, Observer, Plant, PredictorObserver, PredictorTables,
+};
 
 // A 3-state scenario of our own (a heater plate: element, plate and sensor
 // temperatures above ambient, sampled at 1 s), two inputs (heater power and

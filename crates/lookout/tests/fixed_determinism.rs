@@ -6,8 +6,8 @@
 //! recorded below.
 
 use lookout::{
-    ChannelMask, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Matrix, Plant,
-    PredictorTables, Q31, Scales,
+    ChannelMask, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Matrix, Observer,
+    Plant, PredictorTables, Q31, Scales,
 };
 
 /// The firmware example must assert this same checksum on the target

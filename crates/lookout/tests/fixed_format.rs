@@ -2,8 +2,8 @@
 //! resolution 2⁻¹⁵ and 2⁻³¹, saturation limits) are common practice.
 
 use lookout::{
-    ConvertError, Fixed, FixedPredictorObserver, FixedPredictorTables, Gate, Matrix, Plant,
-    PredictorTables, Q15, Q31, Scales, TableName, Wide,
+    ConvertError, Fixed, FixedPredictorObserver, FixedPredictorTables, Gate, Matrix, Observer,
+    Plant, PredictorTables, Q15, Q31, Scales, TableName, Wide,
 };
 
 #[test]

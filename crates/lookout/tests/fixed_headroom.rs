@@ -14,8 +14,8 @@ mod fixed_common;
 use fixed_common::fixed_seed;
 use lookout::{
     ChannelMask, Fixed, FixedCurrentObserver, FixedCurrentTables, FixedFusedObserver,
-    FixedFusedTables, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Matrix, Q15,
-    Q31, Scales, TableName,
+    FixedFusedTables, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Matrix,
+    Observer, Q15, Q31, Scales, TableName,
 };
 use proptest::prelude::*;
 

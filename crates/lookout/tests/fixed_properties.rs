@@ -19,8 +19,8 @@ use fixed_common::*;
 use lookout::{
     CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedPredictorObserver, FixedPredictorTables,
-    FusedObserver, FusedTables, Matrix, Plant, PredictorObserver, PredictorTables, Q15, Q31,
-    Scales,
+    FusedObserver, FusedTables, Matrix, Observer, Plant, PredictorObserver, PredictorTables, Q15,
+    Q31, Scales,
 };
 use proptest::prelude::*;
 

@@ -4,8 +4,8 @@
 
 use lookout::{
     Fixed, FixedCurrentObserver, FixedCurrentTables, FixedGate, FixedOutputMap,
-    FixedPredictorObserver, FixedPredictorTables, Matrix, Outcome, Plant, PredictorTables, Q15,
-    Q31, Scales,
+    FixedPredictorObserver, FixedPredictorTables, Matrix, Observer, Outcome, Plant,
+    PredictorTables, Q15, Q31, Scales,
 };
 
 /// An integrator x⁺ = x + ½ u, y = x, with gain `l`; every scale 2⁰.
@@ -80,7 +80,7 @@ fn innovation_clamps<Q: Fixed>() {
     let status = o.step(&[Q::default()], &[Q::MIN]);
     assert_eq!(status.outcome, Outcome::Corrected);
     assert_eq!(status.saturations, 1);
-    assert_eq!(o.innovation(), &[Q::MIN]);
+    assert_eq!(o.innovation(), Some(&[Q::MIN]));
     let x = o.estimate()[0].to_i64();
     // MAX − 2^(F−1) = 2^(F−1) − 1, exactly (one rounding, exact products).
     assert_eq!(x, (1i64 << (Q::FRAC - 1)) - 1);
@@ -137,7 +137,7 @@ fn accumulator_never_wraps<Q: Fixed>() {
         let status = o.step(&[u], &[Q::MIN]);
         assert!(status.saturations >= 5, "{status:?}");
         assert_eq!(
-            (o.innovation(), o.filtered(), o.predicted()),
+            (o.innovation().unwrap(), o.filtered(), o.predicted()),
             (&[opposite], &[opposite; 4], &[opposite; 4])
         );
     }

@@ -1,8 +1,8 @@
 //! Innovation gating and the chi-square limits a user would pick.
 
 use lookout::{
-    ChannelMask, FusedObserver, FusedTables, Gate, Matrix, Outcome, Plant, PredictorObserver,
-    PredictorTables, Recovery, chi_square_limit,
+    ChannelMask, FusedObserver, FusedTables, Gate, Matrix, Observer, Outcome, Plant,
+    PredictorObserver, PredictorTables, Recovery, chi_square_limit,
 };
 
 /// Upper critical values of the chi-square distribution, as printed in the
@@ -108,7 +108,7 @@ fn gate_applies_consistent_and_refuses_outlying_measurements() {
     let mut obs = PredictorObserver::new(&TABLES, [0.0]);
     let s = obs.step(&[0.0], &[4.0, 1.0]);
     assert_eq!(s.outcome, Outcome::Corrected);
-    assert_eq!(obs.innovation(), &[4.0, 1.0]);
+    assert_eq!(obs.innovation(), Some(&[4.0, 1.0]));
     assert!((obs.estimate()[0] - (0.3 * 4.0 + 0.2 * 1.0)).abs() < 1e-15);
 
     // ν = 4²/4 + 2²/1 = 8 > 5.991: gated, prediction only.
@@ -155,7 +155,7 @@ fn fused_gate_agrees_with_the_predictor() {
     for y in readings {
         let (a, b) = (pred.step(&[1.0], &y), fused.step(&[1.0], &y));
         assert_eq!(a, b, "reading {y:?}");
-        let (r, rf) = (pred.innovation(), fused.innovation().unwrap());
+        let (r, rf) = (pred.innovation().unwrap(), fused.innovation().unwrap());
         assert!(r.iter().zip(rf).all(|(a, b)| (a - b).abs() < 1e-14));
         assert!((pred.estimate()[0] - fused.estimate()[0]).abs() < 1e-14);
     }

@@ -3,8 +3,8 @@
 mod common;
 use common::*;
 use lookout::{
-    ChannelMask, CurrentObserver, CurrentTables, FusedObserver, FusedTables, Matrix, Outcome,
-    Plant, PredictorObserver, PredictorTables,
+    ChannelMask, CurrentObserver, CurrentTables, FusedObserver, FusedTables, Matrix, Observer,
+    Outcome, Plant, PredictorObserver, PredictorTables,
 };
 use proptest::prelude::*;
 
@@ -169,7 +169,7 @@ proptest! {
             for v in all {
                 prop_assert!(v.is_finite());
             }
-            prop_assert!(pred.innovation().iter().all(|r| r.is_finite()));
+            prop_assert!(pred.innovation().unwrap().iter().all(|r| r.is_finite()));
         }
     }
 

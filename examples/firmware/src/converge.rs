@@ -61,7 +61,7 @@ impl<const N: usize, const M: usize, const P: usize> Scenario<'_, N, M, P> {
             }
             verdict.saturations += u32::from(status.saturations);
             plant.advance(&u);
-            let e = self.error(&plant.x, &observer.estimate());
+            let e = self.error(&plant.x, &observer.estimate_f64());
             if k == 0 {
                 verdict.initial = e;
             }

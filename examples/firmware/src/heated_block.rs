@@ -8,8 +8,8 @@
 //! measured. Invented data.
 
 use lookout::{
-    ChannelMask, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Matrix, Proven, Q31,
-    Scales,
+    ChannelMask, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Matrix, Observer,
+    Proven, Q31, Scales,
 };
 
 /// The checksum the host test records (FNV-1a 64 over the little-endian

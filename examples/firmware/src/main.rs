@@ -31,7 +31,8 @@ mod tables;
 
 use converge::Scenario;
 use lookout::{
-    CurrentObserver, FixedFusedObserver, FixedPredictorObserver, FusedObserver, PredictorObserver,
+    CurrentObserver, FixedFusedObserver, FixedPredictorObserver, FusedObserver, Observer,
+    PredictorObserver,
 };
 use observe::Observe;
 
@@ -122,7 +123,7 @@ fn check<O: Observe<N, M, P>, const N: usize, const M: usize, const P: usize>(
     out!(
         "check variant={} scalar={} initial={:.3e} settled={:.3e} tolerance={:.3e} uncorrected={} saturations={} {}",
         name,
-        O::SCALAR,
+        <O::Scalar as observe::Word>::NAME,
         v.initial,
         v.settled,
         tolerance,
@@ -140,7 +141,7 @@ fn check<O: Observe<N, M, P>, const N: usize, const M: usize, const P: usize>(
     out!(
         "cost variant={} scalar={} n={} m={} p={} instructions={:.2} macs={}",
         name,
-        O::SCALAR,
+        <O::Scalar as observe::Word>::NAME,
         N,
         M,
         P,

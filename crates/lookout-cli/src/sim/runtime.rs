@@ -36,8 +36,8 @@ use crate::error::CliError;
 use lookout::{
     ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedPredictorObserver, FixedPredictorTables,
-    FusedObserver, FusedTables, Gate, Matrix, Outcome, Plant, PredictorObserver, PredictorTables,
-    Q15, Q31, Real, Recovery, Scales, Status, dequantise_real, quantise_real,
+    FusedObserver, FusedTables, Gate, Matrix, Observer, Outcome, Plant, PredictorObserver,
+    PredictorTables, Q15, Q31, Real, Recovery, Scales, Status, dequantise_real, quantise_real,
 };
 use lookout_design::Design;
 use lookout_design::fixed_point::QuantisedTable;
@@ -262,27 +262,6 @@ fn mask<const P: usize>(valid: &[bool]) -> ChannelMask {
     )
 }
 
-macro_rules! float_stepper {
-    ($obs:ident, $estimate:ident) => {
-        impl<T: Scalar, const N: usize, const M: usize, const P: usize> Stepper
-            for $obs<'_, T, N, M, P>
-        {
-            fn step(&mut self, u: &[f64], y: &[f64], valid: &[bool]) -> (Status, u32) {
-                let u = padded_vec::<T, M>(u);
-                let y = padded_vec::<T, P>(y);
-                (self.step_masked(&u, &y, mask::<P>(valid)), 0)
-            }
-            fn push_estimate(&self, n: usize, out: &mut Vec<f64>) {
-                out.extend(self.$estimate().iter().take(n).map(|v| v.to()));
-            }
-        }
-    };
-}
-
-float_stepper!(PredictorObserver, estimate);
-float_stepper!(CurrentObserver, predicted);
-float_stepper!(FusedObserver, estimate);
-
 /// `v` as a Q value at scale exponent `e`, clamped to the word when it is
 /// outside (second value: whether it was).
 fn to_q<Q: Fixed>(v: f64, e: i8) -> (Q, bool) {
@@ -303,35 +282,80 @@ fn q_vec<Q: Fixed, const K: usize>(v: &[f64], exps: &[i8; K], clamped: &mut u32)
     out
 }
 
-macro_rules! fixed_stepper {
-    ($obs:ident, $estimate:ident) => {
-        impl<Q: Fixed, const N: usize, const M: usize, const P: usize> Stepper
-            for $obs<'_, Q, N, M, P>
-        {
-            fn step(&mut self, u: &[f64], y: &[f64], valid: &[bool]) -> (Status, u32) {
-                let s = self.tables().scales;
-                let mut clamped = 0;
-                let u = q_vec::<Q, M>(u, &s.input, &mut clamped);
-                let y = q_vec::<Q, P>(y, &s.output, &mut clamped);
-                (self.step_masked(&u, &y, mask::<P>(valid)), clamped)
-            }
-            fn push_estimate(&self, n: usize, out: &mut Vec<f64>) {
-                let s = &self.tables().scales;
-                out.extend(
-                    self.$estimate()
-                        .iter()
-                        .zip(s.state.iter())
-                        .take(n)
-                        .map(|(&q, &e)| dequantise_real(q, e)),
-                );
-            }
-        }
-    };
+/// A scalar the simulator's f64 signals convert to and from, at a scale
+/// exponent (which floats ignore).
+trait Signal: Copy {
+    /// `v` in this scalar; second value: whether it was clamped into range.
+    fn from_f64(v: f64, e: i8) -> (Self, bool);
+    /// Back to f64.
+    fn to_f64(self, e: i8) -> f64;
 }
 
-fixed_stepper!(FixedPredictorObserver, estimate);
-fixed_stepper!(FixedCurrentObserver, predicted);
-fixed_stepper!(FixedFusedObserver, estimate);
+impl<T: Scalar> Signal for T {
+    fn from_f64(v: f64, _: i8) -> (Self, bool) {
+        (T::of(v).unwrap_or_else(T::nan), false)
+    }
+    fn to_f64(self, _: i8) -> f64 {
+        self.to()
+    }
+}
+
+macro_rules! q_signal {
+    ($($q:ty),*) => {$(
+        impl Signal for $q {
+            fn from_f64(v: f64, e: i8) -> (Self, bool) {
+                to_q(v, e)
+            }
+            fn to_f64(self, e: i8) -> f64 {
+                dequantise_real(self, e)
+            }
+        }
+    )*};
+}
+q_signal!(Q15, Q31);
+
+/// A runtime observer at sizes N, M, P, stepped on run-size f64 data.
+struct Sized<O, const N: usize, const M: usize, const P: usize>(O);
+
+/// The signals `v` (run size) in the observer's scalar at the exponents
+/// `exps` (none for a float observer), padded with zeros; counts clamps.
+fn signals<S: Signal, const K: usize>(
+    v: &[f64],
+    exps: Option<&[i8; K]>,
+    clamped: &mut u32,
+) -> [S; K] {
+    core::array::from_fn(|i| {
+        let e = exps.and_then(|e| e.get(i)).copied().unwrap_or(0);
+        let (q, c) = S::from_f64(v.get(i).copied().unwrap_or(0.0), e);
+        *clamped += u32::from(c);
+        q
+    })
+}
+
+impl<O, const N: usize, const M: usize, const P: usize> Stepper for Sized<O, N, M, P>
+where
+    O: Observer<N, M, P>,
+    O::Scalar: Signal,
+{
+    fn step(&mut self, u: &[f64], y: &[f64], valid: &[bool]) -> (Status, u32) {
+        let s = self.0.scales();
+        let mut clamped = 0;
+        let u = signals(u, s.map(|s| &s.input), &mut clamped);
+        let y = signals(y, s.map(|s| &s.output), &mut clamped);
+        (self.0.step_masked(&u, &y, mask::<P>(valid)), clamped)
+    }
+    fn push_estimate(&self, n: usize, out: &mut Vec<f64>) {
+        let s = self.0.scales().map(|s| &s.state);
+        out.extend(
+            self.0
+                .estimate()
+                .iter()
+                .enumerate()
+                .take(n)
+                .map(|(i, &v)| v.to_f64(s.and_then(|s| s.get(i)).copied().unwrap_or(0))),
+        );
+    }
+}
 
 /// Drives `obs` over the run. Not generic: one copy serves every size.
 fn drive(obs: &mut dyn Stepper, format: Format, traj: &Trajectory) -> FormatRun {
@@ -384,9 +408,11 @@ fn run_float<T: Scalar, const N: usize, const M: usize, const P: usize>(
 ) -> Result<FormatRun, CliError> {
     let x0 = padded_vec::<T, N>(x0);
     Ok(match float_tables::<T, N, M, P>(design)? {
-        FloatTables::Predictor(t) => drive(&mut PredictorObserver::new(&t, x0), format, traj),
-        FloatTables::Current(t) => drive(&mut CurrentObserver::new(&t, x0), format, traj),
-        FloatTables::Fused(t) => drive(&mut FusedObserver::new(&t, x0), format, traj),
+        FloatTables::Predictor(t) => {
+            drive(&mut Sized(PredictorObserver::new(&t, x0)), format, traj)
+        }
+        FloatTables::Current(t) => drive(&mut Sized(CurrentObserver::new(&t, x0)), format, traj),
+        FloatTables::Fused(t) => drive(&mut Sized(FusedObserver::new(&t, x0)), format, traj),
     })
 }
 
@@ -398,7 +424,7 @@ fn pad_exponents<const K: usize>(e: &[i8]) -> [i8; K] {
     out
 }
 
-fn run_fixed<Q: Fixed, const N: usize, const M: usize, const P: usize>(
+fn run_fixed<Q: Fixed + Signal, const N: usize, const M: usize, const P: usize>(
     design: &Design,
     format: Format,
     traj: &Trajectory,
@@ -441,7 +467,11 @@ fn run_fixed<Q: Fixed, const N: usize, const M: usize, const P: usize>(
                     &[(&as_i64(&o.c), &o.exp), (&as_i64(&o.d), &o.exp)],
                 )?;
             }
-            drive(&mut FixedPredictorObserver::new(&q, x0), format, traj)
+            drive(
+                &mut Sized(FixedPredictorObserver::new(&q, x0)),
+                format,
+                traj,
+            )
         }
         FloatTables::Current(t) => {
             let q = FixedCurrentTables::<Q, N, M, P>::from_float(&t, scales).map_err(convert)?;
@@ -457,7 +487,7 @@ fn run_fixed<Q: Fixed, const N: usize, const M: usize, const P: usize>(
                     &[(&as_i64(&o.c), &o.exp), (&as_i64(&o.d), &o.exp)],
                 )?;
             }
-            drive(&mut FixedCurrentObserver::new(&q, x0), format, traj)
+            drive(&mut Sized(FixedCurrentObserver::new(&q, x0)), format, traj)
         }
         FloatTables::Fused(t) => {
             let q = FixedFusedTables::<Q, N, M, P>::from_float(&t, scales).map_err(convert)?;
@@ -473,7 +503,7 @@ fn run_fixed<Q: Fixed, const N: usize, const M: usize, const P: usize>(
                     &[(&as_i64(&o.c), &o.exp), (&as_i64(&o.d), &o.exp)],
                 )?;
             }
-            drive(&mut FixedFusedObserver::new(&q, x0), format, traj)
+            drive(&mut Sized(FixedFusedObserver::new(&q, x0)), format, traj)
         }
     };
     run.saturations += u64::from(clamped);

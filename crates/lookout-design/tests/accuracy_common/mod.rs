@@ -7,8 +7,8 @@
 use lookout::{
     CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedPredictorObserver, FixedPredictorTables,
-    FusedObserver, FusedTables, Matrix, Plant, PredictorObserver, PredictorTables, Q15, Q31, Real,
-    Scales, dequantise_real, quantise_real,
+    FusedObserver, FusedTables, Matrix, Observer, Plant, PredictorObserver, PredictorTables, Q15,
+    Q31, Real, Scales, dequantise_real, quantise_real,
 };
 use lookout_design::fixed_point::{FixedDesign, FormKind, NumberKind};
 use nalgebra::DMatrix;

@@ -80,11 +80,6 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
         }
     }
 
-    /// Correct then predict, with every channel of `y` offered.
-    pub fn step(&mut self, u: &[Q; M], y: &[Q; P]) -> Status {
-        self.step_masked(u, y, ChannelMask::all(P))
-    }
-
     /// Correct then predict, using only the channels in `valid`; the status
     /// counts the saturations of both updates.
     pub fn step_masked(&mut self, u: &[Q; M], y: &[Q; P], valid: ChannelMask) -> Status {
@@ -166,29 +161,10 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
         &self.predicted
     }
 
-    /// The innovation of the last correction (zero on channels it did not use).
-    pub const fn innovation(&self) -> &[Q; P] {
-        &self.r
-    }
-
-    /// Replaces both estimates with `x` (taken as the prediction for the
-    /// coming sample).
-    pub fn set_state(&mut self, x: [Q; N]) {
-        self.predicted = x;
-        self.filtered = x;
-        self.pending = None;
-        self.misses = 0;
-    }
-
-    /// Returns to the estimate given to [`new`](Self::new) and clears the
-    /// innovation.
-    pub fn reset(&mut self) {
-        self.set_state(self.initial);
-        self.r = [Q::ZERO; P];
-    }
-
     /// The tables the observer runs on.
     pub const fn tables(&self) -> &'t FixedCurrentTables<Q, N, M, P> {
         self.tables
     }
 }
+
+observer!(['t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation] FixedCurrentObserver<'t, Q, N, M, P, K>, Q, current, two_pass, |o| Some(&o.r), fixed);

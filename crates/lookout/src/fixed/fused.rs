@@ -68,11 +68,6 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
         }
     }
 
-    /// One step with every channel of `y` offered.
-    pub fn step(&mut self, u: &[Q; M], y: &[Q; P]) -> Status {
-        self.step_masked(u, y, ChannelMask::all(P))
-    }
-
     /// One step using only the channels in `valid`.
     pub fn step_masked(&mut self, u: &[Q; M], y: &[Q; P], valid: ChannelMask) -> Status {
         let t = self.tables;
@@ -152,39 +147,10 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
         y_used
     }
 
-    /// One step without a measurement: every channel stands in by its
-    /// prediction, so x̂ ← A x̂ + B u up to rounding.
-    pub fn predict(&mut self, u: &[Q; M]) -> Status {
-        self.step_masked(u, &[Q::ZERO; P], ChannelMask::NONE)
-    }
-
-    /// The estimate x̂\[k\].
-    pub const fn estimate(&self) -> &[Q; N] {
-        &self.x
-    }
-
-    /// The innovation of the last step, when the tables have a gate (the
-    /// step only forms it then); `None` otherwise.
-    pub fn innovation(&self) -> Option<&[Q; P]> {
-        self.tables.gate.as_ref().map(|_| &self.r)
-    }
-
-    /// Replaces the estimate.
-    pub fn set_state(&mut self, x: [Q; N]) {
-        self.x = x;
-        self.misses = 0;
-    }
-
-    /// Returns to the estimate given to [`new`](Self::new) and clears the
-    /// innovation.
-    pub fn reset(&mut self) {
-        self.x = self.initial;
-        self.r = [Q::ZERO; P];
-        self.misses = 0;
-    }
-
     /// The tables the observer runs on.
     pub const fn tables(&self) -> &'t FixedFusedTables<Q, N, M, P> {
         self.tables
     }
 }
+
+observer!(['t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation] FixedFusedObserver<'t, Q, N, M, P, K>, Q, one, fused, |o| o.tables.gate.as_ref().map(|_| &o.r), fixed);

@@ -77,11 +77,6 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
         }
     }
 
-    /// One step with every channel of `y` offered.
-    pub fn step(&mut self, u: &[Q; M], y: &[Q; P]) -> Status {
-        self.step_masked(u, y, ChannelMask::all(P))
-    }
-
     /// One step using only the channels in `valid`.
     pub fn step_masked(&mut self, u: &[Q; M], y: &[Q; P], valid: ChannelMask) -> Status {
         let t = self.tables;
@@ -107,37 +102,10 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
         status
     }
 
-    /// One step without a measurement: x̂ ← round(A x̂ + B u).
-    pub fn predict(&mut self, u: &[Q; M]) -> Status {
-        self.step_masked(u, &[Q::ZERO; P], ChannelMask::NONE)
-    }
-
-    /// The estimate x̂\[k\] (the state after the last step).
-    pub const fn estimate(&self) -> &[Q; N] {
-        &self.x
-    }
-
-    /// The innovation of the last step (zero on channels it did not use).
-    pub const fn innovation(&self) -> &[Q; P] {
-        &self.r
-    }
-
-    /// Replaces the estimate.
-    pub fn set_state(&mut self, x: [Q; N]) {
-        self.x = x;
-        self.misses = 0;
-    }
-
-    /// Returns to the estimate given to [`new`](Self::new) and clears the
-    /// innovation.
-    pub fn reset(&mut self) {
-        self.x = self.initial;
-        self.r = [Q::ZERO; P];
-        self.misses = 0;
-    }
-
     /// The tables the observer runs on.
     pub const fn tables(&self) -> &'t FixedPredictorTables<Q, N, M, P> {
         self.tables
     }
 }
+
+observer!(['t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation] FixedPredictorObserver<'t, Q, N, M, P, K>, Q, one, two_pass, |o| Some(&o.r), fixed);
