@@ -10,3 +10,4 @@ pub mod numerics;
 
 pub use design::{Design, DesignError, Warning, design_file, design_text};
 pub use emit::{Scalar, emit_file, tables_source, write_tables};
+pub use numerics::chi_square::chi_square_limit;

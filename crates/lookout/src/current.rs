@@ -23,7 +23,7 @@ use crate::{ChannelMask, CurrentTables, Outcome, Real, Status};
 /// [`correct`](Self::correct) with the measurement, computes u\[k\], then calls
 /// [`predict`](Self::predict) with it (`correct` then uses its input only for
 /// the D term, so with D ≠ 0 pass the input that will be applied).
-/// [`step`](Self::step) does both with one input.
+/// [`step`](crate::Observer::step) does both with one input.
 ///
 /// Cost: `correct` P·N + P·M + N·P multiply-adds (plus P·P + P with a gate),
 /// `predict` N·N + N·M. Missing channels, non-finite readings and inputs are
@@ -140,4 +140,12 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
     }
 }
 
-observer!(['t, T: Real, const N: usize, const M: usize, const P: usize] CurrentObserver<'t, T, N, M, P>, T, current, two_pass, |o| Some(&o.r), float);
+observer!(
+    ['t, T: Real, const N: usize, const M: usize, const P: usize]
+    CurrentObserver<'t, T, N, M, P>,
+    T,
+    current,
+    two_pass,
+    |o| Some(&o.r),
+    float
+);

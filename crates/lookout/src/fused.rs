@@ -18,7 +18,7 @@ use crate::{ChannelMask, FusedTables, Outcome, Real, Status};
 ///
 /// With a gate the innovation r = y − C x̂ − D u is formed (P·(N + M) more
 /// multiply-adds, then P·P + P for the test) and can be read with
-/// [`innovation`](Self::innovation); a gated measurement is replaced by its
+/// [`innovation`](crate::Observer::innovation); a gated measurement is replaced by its
 /// prediction on every channel. A non-finite input refuses the step and leaves
 /// the state as it was.
 #[derive(Clone, Debug)]
@@ -149,4 +149,12 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
     }
 }
 
-observer!(['t, T: Real, const N: usize, const M: usize, const P: usize] FusedObserver<'t, T, N, M, P>, T, one, fused, |o| o.tables.gate.as_ref().map(|_| &o.r), float);
+observer!(
+    ['t, T: Real, const N: usize, const M: usize, const P: usize]
+    FusedObserver<'t, T, N, M, P>,
+    T,
+    one,
+    fused,
+    |o| o.tables.gate.as_ref().map(|_| &o.r),
+    float
+);

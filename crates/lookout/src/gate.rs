@@ -163,7 +163,7 @@ impl Decision {
 /// innovation covariance, and accepts the measurement when ν ≤ `limit`. Under
 /// the model's Gaussian assumptions ν follows a chi-square law with P degrees
 /// of freedom, so `limit` is usually its quantile for a chosen probability p
-/// (see [`chi_square_limit`](crate::chi_square_limit)): a consistent
+/// (see `lookout_design::chi_square_limit`): a consistent
 /// observer then rejects a good reading with probability 1 − p per step
 /// (0.1 % for p = 0.999).
 ///

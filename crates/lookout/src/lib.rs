@@ -19,6 +19,13 @@
 //! [`FusedTables`]) are plain data written as `const` or `static` items; an
 //! observer borrows them and owns only its state.
 //!
+//! All six observers (three forms, float and fixed point) implement one
+//! trait, [`Observer`]: `step`, `step_masked`, `predict`, `estimate`,
+//! `innovation`, `set_state`, `reset`, with the step cost and, for fixed
+//! point, the signal scales. Bring it into scope (`use lookout::Observer`)
+//! to step an observer; code written against it serves every observer, and
+//! a call on a concrete observer costs what the observer's own step does.
+//!
 //! Each step returns a [`Status`]: which channels corrected the estimate,
 //! which were missing (masked by the caller or not finite), and whether the
 //! measurement was gated or the input refused. A non-finite input never
@@ -109,7 +116,6 @@
 
 #[macro_use]
 mod observer;
-mod chi_square;
 mod current;
 mod fixed;
 mod fused;
@@ -121,7 +127,6 @@ mod real;
 mod status;
 mod tables;
 
-pub use chi_square::chi_square_limit;
 pub use current::CurrentObserver;
 pub use fixed::{
     Accumulation, ConvertError, Exact, Fixed, FixedCurrentObserver, FixedCurrentTables,

@@ -14,10 +14,10 @@ use crate::{ChannelMask, PredictorTables, Real, Status};
 ///
 /// so the estimation error e = x − x̂ obeys e\[k+1\] = (A − L C) e\[k\] on an
 /// exact model. The state is x̂\[k\], the estimate of x\[k\] from measurements up
-/// to k − 1; after [`step`](Self::step) it holds x̂\[k+1\].
+/// to k − 1; after [`step`](crate::Observer::step) it holds x̂\[k+1\].
 ///
 /// Cost per step: N·N + N·M + 2·N·P + P·M multiply-adds, plus P·P + P when
-/// the tables have a gate; [`predict`](Self::predict) costs N·N + N·M. The
+/// the tables have a gate; [`predict`](crate::Observer::predict) costs N·N + N·M. The
 /// [`FusedObserver`](crate::FusedObserver) does the same update in
 /// N·N + N·M + N·P.
 ///
@@ -82,4 +82,12 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
     }
 }
 
-observer!(['t, T: Real, const N: usize, const M: usize, const P: usize] PredictorObserver<'t, T, N, M, P>, T, one, two_pass, |o| Some(&o.r), float);
+observer!(
+    ['t, T: Real, const N: usize, const M: usize, const P: usize]
+    PredictorObserver<'t, T, N, M, P>,
+    T,
+    one,
+    two_pass,
+    |o| Some(&o.r),
+    float
+);

@@ -61,7 +61,7 @@ pub struct Reference {
 /// the square root of the chi-square quantile with one degree of freedom.
 pub fn band_multiple(n: usize, steps: usize) -> f64 {
     let cells = (n.max(1) * steps.max(1)) as f64;
-    lookout::chi_square_limit(1, 1.0 - BAND_MISS / cells)
+    lookout_design::chi_square_limit(1, 1.0 - BAND_MISS / cells)
         .unwrap_or(25.0)
         .sqrt()
 }

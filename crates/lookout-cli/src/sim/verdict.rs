@@ -34,8 +34,8 @@ impl Interval {
         let k = samples as f64;
         Some(Self {
             value,
-            low: lookout::chi_square_limit(total, tail)? / k,
-            high: lookout::chi_square_limit(total, 1.0 - tail)? / k,
+            low: lookout_design::chi_square_limit(total, tail)? / k,
+            high: lookout_design::chi_square_limit(total, 1.0 - tail)? / k,
             samples,
             dof,
         })
@@ -102,7 +102,7 @@ pub fn mean_within(values: &[f64], limit: f64) -> (f64, bool) {
 
 /// z with P(|z| ≤ z) = `confidence` for a standard normal z.
 pub fn normal_quantile(confidence: f64) -> f64 {
-    lookout::chi_square_limit(1, confidence)
+    lookout_design::chi_square_limit(1, confidence)
         .unwrap_or(10.83)
         .sqrt()
 }

@@ -240,15 +240,15 @@ pub(super) fn gate(
     let dof = u32::try_from(p).unwrap_or(u32::MAX);
     let (limit, channel_limit) = match *spec {
         Gate::Probability(prob) => (
-            lookout::chi_square_limit(dof, prob),
-            lookout::chi_square_limit(1, prob),
+            crate::chi_square_limit(dof, prob),
+            crate::chi_square_limit(1, prob),
         ),
         Gate::Threshold(limit) => {
             // The per-channel test keeps the same false-alarm probability.
             let prob = probability_of_limit(dof, limit);
             (
                 Some(limit),
-                prob.and_then(|prob| lookout::chi_square_limit(1, prob)),
+                prob.and_then(|prob| crate::chi_square_limit(1, prob)),
             )
         }
     };
@@ -291,7 +291,7 @@ pub(super) fn probability_of_limit(dof: u32, limit: f64) -> Option<f64> {
     let (mut lo, mut hi) = (0.0_f64, 1.0_f64);
     for _ in 0..80 {
         let mid = 0.5 * (lo + hi);
-        match lookout::chi_square_limit(dof, mid) {
+        match crate::chi_square_limit(dof, mid) {
             Some(q) if q < limit => lo = mid,
             Some(_) => hi = mid,
             None => return None,

@@ -23,6 +23,7 @@
 
 mod balance;
 pub(crate) mod checks;
+pub mod chi_square;
 pub mod dare;
 pub mod discretise;
 pub mod eig;

@@ -28,8 +28,9 @@ use core::marker::PhantomData;
 /// saturating observer's on the same tables.
 ///
 /// ```
-/// use lookout::{FixedFusedObserver, FixedFusedTables, FixedOutputMap, Matrix, Observer, Proven, Q15,
-///     Scales};
+/// use lookout::{
+///     FixedFusedObserver, FixedFusedTables, FixedOutputMap, Matrix, Observer, Proven, Q15, Scales,
+/// };
 /// const ONE: Q15 = Q15(0x4000);
 /// static TABLES: Proven<FixedFusedTables<Q15, 1, 1, 1>> = match (FixedFusedTables {
 ///     scales: Scales { state: [0], input: [0], output: [0] },

@@ -12,7 +12,7 @@
 ///
 /// ```
 /// // 95 % gate for two channels: 5.991 in the standard chi-square tables.
-/// let limit = lookout::chi_square_limit(2, 0.95).unwrap();
+/// let limit = lookout_design::chi_square_limit(2, 0.95).unwrap();
 /// assert!((limit - 5.991).abs() < 1e-3);
 /// ```
 pub fn chi_square_limit(dof: u32, probability: f64) -> Option<f64> {
