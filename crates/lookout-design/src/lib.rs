@@ -9,5 +9,7 @@ pub mod model;
 pub mod numerics;
 
 pub use design::{Design, DesignError, Warning, design_file, design_text};
-pub use emit::{Scalar, emit_file, tables_source, write_tables};
+pub use emit::{
+    EmitOptions, Scalar, emit_file, emit_file_with, tables_source, tables_source_with, write_tables,
+};
 pub use numerics::chi_square::chi_square_limit;

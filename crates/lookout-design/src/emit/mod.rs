@@ -5,6 +5,16 @@
 //! the same design always gives the same bytes. Floats are printed so that
 //! they read back exactly. [`emit_file`] is the build-script entry point: it
 //! writes the whole file or nothing.
+//!
+//! What a file holds: one `pub mod` (named after the model, or as
+//! [`EmitOptions::module`] says) with the sizes `N`, `M`, `P`, the sample
+//! period, index modules of the named states, inputs and outputs, and the
+//! float tables of every observer form the design has (`PREDICTOR` or
+//! `CURRENT`, and `FUSED`), gate included, in the chosen scalar. When the
+//! model has a `[fixed_point]` section the same module also holds the
+//! design's Q15 or Q31 tables (`PREDICTOR_Q31`, `FUSED_Q31`, … as
+//! `lookout::Proven` statics), built by the design's one quantiser
+//! (`fixed_point::quantise`), with their signal scales.
 
 mod file;
 mod fixed;
@@ -22,7 +32,37 @@ use std::fmt::Write as _;
 use std::io;
 use std::path::Path;
 
-/// Designs the model at `model_path` and writes its tables to `out_path`.
+/// How to emit a design's tables: the scalar of the float tables and the
+/// name of the generated module, so that one build can emit several
+/// variants of one model (f32 and f64 tables of one model in two modules).
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct EmitOptions {
+    /// The scalar of the float tables.
+    pub scalar: Scalar,
+    /// The module name; `None` takes the model's name (`-` becoming `_`).
+    pub module: Option<String>,
+}
+
+impl EmitOptions {
+    /// Tables in `scalar`, in a module named after the model.
+    pub fn new(scalar: Scalar) -> Self {
+        Self {
+            scalar,
+            module: None,
+        }
+    }
+
+    /// The same, in a module named `module`.
+    pub fn module(self, module: &str) -> Self {
+        Self {
+            module: Some(module.to_string()),
+            ..self
+        }
+    }
+}
+
+/// Designs the model at `model_path` and writes its tables to `out_path`
+/// (what the file holds: see the [module](self) docs).
 ///
 /// The file is written to a new temporary file beside `out_path` and renamed
 /// into place, so a failure never leaves a partial file; anything but a
@@ -52,8 +92,18 @@ pub fn emit_file(
     out_path: &Path,
     scalar: Scalar,
 ) -> Result<Design, DesignError> {
+    emit_file_with(model_path, out_path, &EmitOptions::new(scalar))
+}
+
+/// [`emit_file`] with [`EmitOptions`]: e.g. f32 and f64 tables of one
+/// model in one build, in modules `conveyor_f32` and `conveyor_f64`.
+pub fn emit_file_with(
+    model_path: &Path,
+    out_path: &Path,
+    options: &EmitOptions,
+) -> Result<Design, DesignError> {
     let design = design_file(model_path)?;
-    let text = tables_source(&design, scalar)?;
+    let text = tables_source_with(&design, options)?;
     write_atomically(out_path, text.as_bytes())?;
     Ok(design)
 }
@@ -76,7 +126,27 @@ pub fn write_tables(design: &Design, scalar: Scalar, out: &mut impl io::Write) -
 /// The Rust source of `design`'s tables in `scalar`; refused (an input
 /// error) when an entry does not fit `scalar`.
 pub fn tables_source(design: &Design, scalar: Scalar) -> Result<String, DesignError> {
-    source(design, scalar).ok_or_else(|| DesignError::Unsupported {
+    tables_source_with(design, &EmitOptions::new(scalar))
+}
+
+/// [`tables_source`] with [`EmitOptions`]; a module name that is not a Rust
+/// identifier is refused (an input error naming the key `module`).
+pub fn tables_source_with(design: &Design, options: &EmitOptions) -> Result<String, DesignError> {
+    let module = match &options.module {
+        Some(name) => {
+            if let Some(problem) = crate::model::identifier_problem(name) {
+                return Err(DesignError::Unsupported {
+                    origin: design.origin.clone(),
+                    key: "module",
+                    message: format!("module name '{name}' is not a Rust identifier: {problem}"),
+                });
+            }
+            name.clone()
+        }
+        None => design.model.identifier(),
+    };
+    let scalar = options.scalar;
+    source(design, scalar, &module).ok_or_else(|| DesignError::Unsupported {
         origin: design.origin.clone(),
         key: "scalar",
         message: match scalar {
@@ -92,9 +162,8 @@ pub fn tables_source(design: &Design, scalar: Scalar) -> Result<String, DesignEr
     })
 }
 
-fn source(d: &Design, scalar: Scalar) -> Option<String> {
+fn source(d: &Design, scalar: Scalar, module: &str) -> Option<String> {
     let ty = scalar.rust_type();
-    let module = d.model.identifier();
     let mut s = String::new();
     header(d, &mut s);
     let _ = writeln!(

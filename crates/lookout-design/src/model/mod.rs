@@ -100,6 +100,7 @@ mod disturbances;
 mod error;
 mod fixed_point;
 mod ident;
+pub(crate) use ident::identifier_problem;
 mod kalman;
 mod observer;
 mod plant;
