@@ -83,3 +83,32 @@ fn q31_step_reproduces_the_f64_observer_within_its_rounding_bound() {
         "worst deviation / bound {worst:?}"
     );
 }
+
+/// The generated conversions: a physical value goes to Q31 and back within
+/// half an LSB of its scale, 2^(e − 31) / 2 (round to nearest, the Q31
+/// format's definition); beyond full scale it saturates, NaN gives 0.
+#[test]
+fn generated_conversions_round_trip_within_half_an_lsb() {
+    let s = conveyor::SCALES;
+    let x = [
+        0.3 * f64::powi(2.0, s.state[0].into()),
+        -0.7 * f64::powi(2.0, s.state[1].into()),
+    ];
+    let back = conveyor::state_from_q(&conveyor::state_to_q(&x));
+    for i in 0..2 {
+        let half_lsb = f64::powi(2.0, i32::from(s.state[i]) - 31) / 2.0;
+        assert!(
+            (back[i] - x[i]).abs() <= half_lsb,
+            "state {i}: {} vs {}",
+            back[i],
+            x[i]
+        );
+    }
+    let y = [0.5 * f64::powi(2.0, s.output[0].into())];
+    let y_back = conveyor::output_from_q(&conveyor::output_to_q(&y));
+    assert!((y_back[0] - y[0]).abs() <= f64::powi(2.0, i32::from(s.output[0]) - 32));
+    let far = f64::powi(2.0, i32::from(s.input[0]) + 1);
+    assert_eq!(conveyor::input_to_q(&[far]), [Q31(i32::MAX)]);
+    assert_eq!(conveyor::input_to_q(&[-far]), [Q31(i32::MIN)]);
+    assert_eq!(conveyor::input_to_q(&[f64::NAN]), [Q31(0)]);
+}

@@ -92,6 +92,7 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
         ints(&fx.input_exponents),
         ints(&fx.output_exponents)
     );
+    s.push_str(&conversions(ty));
     let output = |tables: &[QuantisedTable]| -> Option<String> {
         let (c, dd) = (table(tables, "c")?, table(tables, "d")?);
         Some(format!(
@@ -174,4 +175,35 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
         )
     );
     Some(s)
+}
+
+/// The generated module's conversions between physical values and Q values
+/// at its `SCALES`, so firmware never handles exponents by hand.
+fn conversions(ty: &str) -> String {
+    let q = format!("lookout::{ty}");
+    let mut s = String::new();
+    for (what, name, len, exp) in [
+        ("states x", "state", "N", "state"),
+        ("inputs u", "input", "M", "input"),
+        ("readings y", "output", "P", "output"),
+    ] {
+        let _ = writeln!(
+            s,
+            "    /// The {what} in physical units as {ty} values at `SCALES.{exp}`\n    /// (v = q · 2^(e − fraction bits)); saturated beyond full scale, 0 for NaN.\n    pub fn {name}_to_q(v: &[f64; {len}]) -> [{q}; {len}] {{\n        to_q(v, &SCALES.{exp})\n    }}"
+        );
+    }
+    for (what, name, len, exp) in [
+        ("estimate", "state", "N", "state"),
+        ("readings or innovation", "output", "P", "output"),
+    ] {
+        let _ = writeln!(
+            s,
+            "    /// {ty} values of the {what} back in physical units.\n    pub fn {name}_from_q(q: &[{q}; {len}]) -> [f64; {len}] {{\n        let mut out = [0.0; {len}];\n        for ((o, q), &e) in out.iter_mut().zip(q).zip(&SCALES.{exp}) {{\n            *o = q.to_real(e);\n        }}\n        out\n    }}"
+        );
+    }
+    let _ = writeln!(
+        s,
+        "    fn to_q<const K: usize>(v: &[f64; K], e: &[i8; K]) -> [{q}; K] {{\n        let mut out = [{q}(0); K];\n        for ((o, &v), &e) in out.iter_mut().zip(v).zip(e) {{\n            *o = match {q}::from_real(v, e) {{\n                Some(q) => q,\n                None if v > 0.0 => <{q} as lookout::Fixed>::MAX,\n                None if v < 0.0 => <{q} as lookout::Fixed>::MIN,\n                None => {q}(0),\n            }};\n        }}\n        out\n    }}"
+    );
+    s
 }
