@@ -140,12 +140,4 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
     }
 }
 
-observer!(
-    ['t, T: Real, const N: usize, const M: usize, const P: usize]
-    CurrentObserver<'t, T, N, M, P>,
-    T,
-    current,
-    two_pass,
-    |o| Some(&o.r),
-    float
-);
+observer!(float CurrentObserver, current, two_pass, |o| Some(&o.r));

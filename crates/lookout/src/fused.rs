@@ -149,12 +149,4 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
     }
 }
 
-observer!(
-    ['t, T: Real, const N: usize, const M: usize, const P: usize]
-    FusedObserver<'t, T, N, M, P>,
-    T,
-    one,
-    fused,
-    |o| o.tables.gate.as_ref().map(|_| &o.r),
-    float
-);
+observer!(float FusedObserver, one, fused, |o| o.tables.gate.as_ref().map(|_| &o.r));

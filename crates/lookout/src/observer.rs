@@ -71,8 +71,23 @@ pub trait Observer<const N: usize, const M: usize, const P: usize> {
 /// `$innovation` maps the observer to its `Option` innovation; `float` or
 /// `fixed` says whether it has scales.
 macro_rules! observer {
+    (float $ty:ident, $form:ident, $cost:ident, |$o:ident| $innovation:expr) => {
+        observer!(
+            @impl ['t, T: $crate::Real, const N: usize, const M: usize, const P: usize]
+            $ty<'t, T, N, M, P>, T, $form, $cost, |$o| $innovation, float
+        );
+    };
+    (fixed $ty:ident, $form:ident, $cost:ident, |$o:ident| $innovation:expr) => {
+        observer!(
+            @impl [
+                't, Q: $crate::Fixed, const N: usize, const M: usize, const P: usize,
+                K: $crate::Accumulation
+            ]
+            $ty<'t, Q, N, M, P, K>, Q, $form, $cost, |$o| $innovation, fixed
+        );
+    };
     (
-        [$($generics:tt)*] $ty:ty, $scalar:ident, $form:ident, $cost:ident,
+        @impl [$($generics:tt)*] $ty:ty, $scalar:ident, $form:ident, $cost:ident,
         |$o:ident| $innovation:expr, $scales:ident
     ) => {
         impl<$($generics)*> $crate::Observer<N, M, P> for $ty {

@@ -82,12 +82,4 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
     }
 }
 
-observer!(
-    ['t, T: Real, const N: usize, const M: usize, const P: usize]
-    PredictorObserver<'t, T, N, M, P>,
-    T,
-    one,
-    two_pass,
-    |o| Some(&o.r),
-    float
-);
+observer!(float PredictorObserver, one, two_pass, |o| Some(&o.r));

@@ -167,12 +167,4 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
     }
 }
 
-observer!(
-    ['t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation]
-    FixedCurrentObserver<'t, Q, N, M, P, K>,
-    Q,
-    current,
-    two_pass,
-    |o| Some(&o.r),
-    fixed
-);
+observer!(fixed FixedCurrentObserver, current, two_pass, |o| Some(&o.r));

@@ -153,12 +153,4 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
     }
 }
 
-observer!(
-    ['t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation]
-    FixedFusedObserver<'t, Q, N, M, P, K>,
-    Q,
-    one,
-    fused,
-    |o| o.tables.gate.as_ref().map(|_| &o.r),
-    fixed
-);
+observer!(fixed FixedFusedObserver, one, fused, |o| o.tables.gate.as_ref().map(|_| &o.r));

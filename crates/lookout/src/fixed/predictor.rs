@@ -108,12 +108,4 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
     }
 }
 
-observer!(
-    ['t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation]
-    FixedPredictorObserver<'t, Q, N, M, P, K>,
-    Q,
-    one,
-    two_pass,
-    |o| Some(&o.r),
-    fixed
-);
+observer!(fixed FixedPredictorObserver, one, two_pass, |o| Some(&o.r));
