@@ -165,22 +165,7 @@ pub fn run_once(
         .first()
         .map(|(_, m)| m.band.clone())
         .unwrap_or_default();
-    let tolerance_source = if opts.tolerance.is_some() {
-        "--tolerance".to_string()
-    } else if reference.noisy {
-        format!(
-            "k·σ per state with k = {:.2} (a consistent error leaves it anywhere in the run with probability {}), σ from {}; plus {} × the format's predicted rounding deviation",
-            reference.k,
-            reference::BAND_MISS,
-            reference.source,
-            reference::ROUNDING_MULTIPLE
-        )
-    } else {
-        format!(
-            "{} × the format's predicted rounding deviation (Σ|Fᵏ| times the per-step bound) plus the f64 run's residual over the last quarter",
-            reference::ROUNDING_MULTIPLE
-        )
-    };
+    let tolerance_source = metrics::tolerance_source(design, opts, reference);
     Ok(RunResult {
         traj,
         formats,

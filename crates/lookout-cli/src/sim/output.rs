@@ -209,7 +209,7 @@ pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
                 "converged": m.converged,
                 "verdict": m.verdict.label(),
                 "band": m.band,
-                "predicted_rounding_deviation": m.rounding,
+                "deviation_bound": m.deviation,
                 "mean_error": m.mean_error,
                 "mean_error_limit": m.mean_limit,
                 "nees": interval_json(m.nees),

@@ -6,7 +6,7 @@ use super::RunResult;
 use super::metrics::Metrics;
 use super::runtime::{Format, FormatRun};
 use lookout_design::Design;
-use lookout_design::fixed_point::{FormKind, NumberKind, accuracy::model_form_of};
+use lookout_design::fixed_point::{Deviation, FormKind, NumberKind, accuracy::model_form_of};
 
 /// The prediction for one format's run.
 #[derive(Debug, Clone)]
@@ -21,7 +21,8 @@ pub struct Check {
     pub exceeded: bool,
 }
 
-fn kind(format: Format) -> NumberKind {
+/// The analysis' name for a format.
+pub fn kind(format: Format) -> NumberKind {
     match format {
         Format::F64 => NumberKind::F64,
         Format::F32 => NumberKind::F32,
@@ -38,15 +39,28 @@ fn outside(values: &[f64], width: usize, exps: &[i8]) -> bool {
     })
 }
 
+/// The form simulate runs in every format: the model's, fused for a held
+/// observer (as `runtime` builds its tables).
+pub fn simulated_form(design: &Design) -> FormKind {
+    model_form_of(design.gain.is_some(), design.model.observer.form)
+}
+
+/// The design's proven deviation of `format` from the exact observer, for
+/// the form simulate runs (`format_accuracy` in `lookout design --json`);
+/// `None` without `[fixed_point]`.
+pub fn design_deviation(design: &Design, format: Format) -> Option<&Deviation> {
+    let fx = design.fixed_point.as_ref()?;
+    fx.accuracy.get(simulated_form(design), kind(format))
+}
+
 /// The check of `run` (`None` for f64 or without `[fixed_point]`).
 pub fn check(design: &Design, r: &RunResult, run: &FormatRun, m: &Metrics) -> Option<Check> {
     let fx = design.fixed_point.as_ref()?;
     if run.format == Format::F64 {
         return None;
     }
-    let form: FormKind = model_form_of(design.gain.is_some(), design.model.observer.form);
-    let this = fx.accuracy.get(form, kind(run.format))?;
-    let reference = fx.accuracy.get(form, NumberKind::F64)?;
+    let this = design_deviation(design, run.format)?;
+    let reference = design_deviation(design, Format::F64)?;
     if this.refused.is_some() || reference.refused.is_some() {
         return None;
     }
