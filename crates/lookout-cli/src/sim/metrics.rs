@@ -145,11 +145,11 @@ pub fn deviation_source(design: &Design) -> String {
     let form = predicted::simulated_form(design).name();
     if design.fixed_point.is_some() {
         format!(
-            "the design's proven deviation of the {form} form in that format from the exact observer (format_accuracy in `lookout design --json`; holds while no signal leaves its scale and nothing saturates)"
+            "the design's proven deviation of the {form} form in that format from the exact observer (format_accuracy in `lookout design --json`; proven while every reading is used, no signal leaves its scale and nothing saturates)"
         )
     } else {
         format!(
-            "the design's float deviation bound for the {form} form (as in format_accuracy: Higham's γ per dot product through the ℓ1 impulse response of the stored error dynamics) with this run's signal peaks in place of the scales a [fixed_point] section would give"
+            "the design's float deviation bound for the {form} form (as in format_accuracy: Higham's γ per dot product through the ℓ1 impulse response of the stored error dynamics) with this run's signal peaks in place of the scales a [fixed_point] section would give; proven while every reading is used"
         )
     }
 }
