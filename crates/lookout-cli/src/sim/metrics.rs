@@ -88,19 +88,7 @@ fn run_peak_deviation(
     reference_run: &FormatRun,
 ) -> Option<Deviation> {
     let names = design.state_names();
-    let tables = FloatTables {
-        form: design.model.observer.form,
-        ad: &design.ad,
-        bd: &design.bd,
-        cd: &design.cd,
-        dd: &design.dd,
-        gain: design.gain.as_ref(),
-        f: &design.f,
-        g: &design.g,
-        h: &design.h,
-        spectral_radius: design.spectral_radius,
-        state_names: &names,
-    };
+    let tables = FloatTables::of(design, &names);
     let x: Vec<f64> = peaks(&run.estimate, traj.n)
         .iter()
         .zip(peaks(&reference_run.estimate, traj.n))

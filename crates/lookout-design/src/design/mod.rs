@@ -348,19 +348,7 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
     finite::check(&design)?;
     if let Some(spec) = &design.model.fixed_point {
         let state_names = design.state_names();
-        let tables = crate::fixed_point::FloatTables {
-            state_names: &state_names,
-            form: design.model.observer.form,
-            ad: &design.ad,
-            bd: &design.bd,
-            cd: &design.cd,
-            dd: &design.dd,
-            gain: design.gain.as_ref(),
-            f: &design.f,
-            g: &design.g,
-            h: &design.h,
-            spectral_radius: design.spectral_radius,
-        };
+        let tables = crate::fixed_point::FloatTables::of(&design, &state_names);
         let fixed =
             crate::fixed_point::design(&tables, spec).map_err(|e| DesignError::Unsupported {
                 origin: origin.to_string(),
