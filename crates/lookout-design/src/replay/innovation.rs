@@ -6,7 +6,10 @@
 //! identification of variances and adaptive Kalman filtering", IEEE TAC
 //! 15(2), 1970). Over N present samples:
 //!
-//! * each channel's sample mean lies within ±z·√(S_jj/N) of zero;
+//! * each channel's sample mean lies within ±z·√(s_jj²/N) of zero, with
+//!   s_jj² the sample variance (so a wrong predicted S does not also fail the
+//!   mean; the interval assumes white innovations, which the whiteness test
+//!   checks);
 //! * (N − 1)·s_jj² / S_jj is χ²(N − 1) for each channel's sample variance
 //!   s_jj², so S_jj lies in [(N−1)s²/χ²_hi, (N−1)s²/χ²_lo];
 //! * N times the time-averaged NIS eᵀ S⁻¹ e is χ²(N·p).
@@ -65,8 +68,8 @@ pub struct InnovationSummary {
     /// Sample mean per channel.
     pub mean: Vec<f64>,
     /// Half width of the interval a zero-mean channel's sample mean lies in
-    /// (z·√(S_jj/N)); `None` without a predicted S.
-    pub mean_half_width: Option<Vec<f64>>,
+    /// (z·√(s_jj²/N), s_jj² the sample variance).
+    pub mean_half_width: Vec<f64>,
     /// Sample covariance (about the sample mean, divided by N − 1).
     pub covariance: DMatrix<f64>,
     /// Interval per channel that contains the true variance at `level`,
@@ -81,11 +84,8 @@ pub struct InnovationSummary {
 impl InnovationSummary {
     /// Channels whose mean lies outside its interval.
     pub fn biased(&self) -> Vec<usize> {
-        let Some(w) = &self.mean_half_width else {
-            return Vec::new();
-        };
         (0..self.mean.len())
-            .filter(|&j| self.mean[j].abs() > w[j])
+            .filter(|&j| self.mean[j].abs() > self.mean_half_width[j])
             .collect()
     }
 
@@ -139,11 +139,13 @@ pub fn summarise(
         })
         .collect();
     let z = super::normal_quantile(level)?;
-    let (mean_half_width, mean_nis, nis_interval) = match predicted {
-        None => (None, None, None),
+    let mean_half_width = (0..p)
+        .map(|j| z * (covariance[(j, j)] / nf).sqrt())
+        .collect();
+    let (mean_nis, nis_interval) = match predicted {
+        None => (None, None),
         Some(s) => {
             let s_inv = s.clone().try_inverse()?;
-            let w = (0..p).map(|j| z * (s[(j, j)] / nf).sqrt()).collect();
             let nis = rows
                 .iter()
                 .map(|r| (r.transpose() * &s_inv * r)[(0, 0)])
@@ -151,7 +153,7 @@ pub fn summarise(
                 / nf;
             let dof = u32::try_from(n.checked_mul(p)?).ok()?;
             let (a, b) = super::chi_square_interval(dof, level)?;
-            (Some(w), Some(nis), Some((a / nf, b / nf)))
+            (Some(nis), Some((a / nf, b / nf)))
         }
     };
     Some(InnovationSummary {
