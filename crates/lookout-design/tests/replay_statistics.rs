@@ -283,3 +283,72 @@ fn undetermined_entries_are_refused() {
     assert!(est.q.is_none());
     assert_eq!(symmetric_basis(2).len(), 3);
 }
+
+mod properties {
+    use super::*;
+    use lookout_design::replay::als::nearest_semidefinite;
+    use proptest::prelude::*;
+
+    fn config() -> ProptestConfig {
+        ProptestConfig {
+            cases: 64,
+            rng_seed: proptest::test_runner::RngSeed::Fixed(0x1717),
+            failure_persistence: None,
+            ..ProptestConfig::default()
+        }
+    }
+
+    proptest! {
+        #![proptest_config(config())]
+
+        /// The modelled autocovariances of any stable scalar loop equal the
+        /// closed form (derivation beside `scalar_autocovariance_matches_the_closed_form`),
+        /// up to ā = a − l = 0.9999 (a slow loop, the doubling's hard case).
+        /// Tolerance k·ε·P with k = 64/(1 − |ā|) (the sum's terms number about
+        /// 1/(1 − |ā|), each a few roundings), stated margin.
+        #[test]
+        fn scalar_modelled_autocovariance_is_the_closed_form(
+            a in -1.5f64..1.5,
+            abar in -0.9999f64..0.9999,
+            q in 1e-6f64..1e3,
+            r in 1e-6f64..1e3,
+        ) {
+            let l = a - abar;
+            let s = Setup {
+                a_true: DMatrix::from_element(1, 1, a),
+                a: DMatrix::from_element(1, 1, a),
+                g: DMatrix::from_element(1, 1, 1.0),
+                c: DMatrix::from_element(1, 1, 1.0),
+                l: DMatrix::from_element(1, 1, l),
+                q_sd: 0.0,
+                r_sd: 0.0,
+            };
+            let noise = s.noise();
+            let pb = AlsProblem { ad: &s.a, cd: &s.c, l: &s.l, noise: &noise, lags: 6 };
+            let c = modelled_autocovariances(&pb, &DMatrix::from_element(1, 1, q), &DMatrix::from_element(1, 1, r)).unwrap();
+            let p = (q + l * l * r) / (1.0 - abar * abar);
+            let tol = 64.0 / (1.0 - abar.abs()) * f64::EPSILON * (p + r + l.abs() * r);
+            for (j, cj) in c.iter().enumerate() {
+                let closed = if j == 0 { p + r } else { abar.powi(j as i32) * p - abar.powi(j as i32 - 1) * l * r };
+                prop_assert!((cj[(0, 0)] - closed).abs() <= tol, "lag {}: {} vs {}", j, cj[(0, 0)], closed);
+            }
+        }
+
+        /// The projection onto the semidefinite cone gives a semidefinite
+        /// matrix (eigenvalues ≥ −k·ε·‖M‖, k = 16) and leaves a semidefinite
+        /// one unchanged (Higham 1988: the projection is idempotent).
+        #[test]
+        fn projection_is_semidefinite_and_idempotent(
+            entries in proptest::collection::vec(-1e3f64..1e3, 9),
+        ) {
+            let m = DMatrix::from_row_slice(3, 3, &entries);
+            let m = (&m + m.transpose()) * 0.5;
+            let (psd, _) = nearest_semidefinite(&m).unwrap();
+            let eig = psd.clone().symmetric_eigen();
+            let scale = m.norm().max(1e-300);
+            prop_assert!(eig.eigenvalues.iter().all(|&l| l >= -16.0 * f64::EPSILON * scale));
+            let (again, _) = nearest_semidefinite(&psd).unwrap();
+            prop_assert!((&again - &psd).norm() <= 16.0 * f64::EPSILON * scale);
+        }
+    }
+}
