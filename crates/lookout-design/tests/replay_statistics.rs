@@ -64,6 +64,16 @@ impl Setup {
         }
     }
 
+    fn problem<'a>(&'a self, noise: &'a NoiseMap, lags: usize) -> AlsProblem<'a> {
+        AlsProblem {
+            ad: &self.a,
+            cd: &self.c,
+            l: &self.l,
+            noise,
+            lags,
+        }
+    }
+
     fn noise(&self) -> NoiseMap {
         NoiseMap {
             q: 1,
@@ -97,13 +107,7 @@ fn scalar_autocovariance_matches_the_closed_form() {
     let (a, l, q, r) = (0.9, 0.3, 1.0, 0.5);
     let s = scalar(a, a);
     let noise = s.noise();
-    let pb = AlsProblem {
-        ad: &s.a,
-        cd: &s.c,
-        l: &s.l,
-        noise: &noise,
-        lags: 8,
-    };
+    let pb = s.problem(&noise, 8);
     let c = modelled_autocovariances(
         &pb,
         &DMatrix::from_element(1, 1, q),
@@ -138,13 +142,7 @@ fn scalar_autocovariance_matches_the_closed_form() {
 
 fn fit(s: &Setup, steps: usize, seed: u64) -> (f64, f64) {
     let noise = s.noise();
-    let pb = AlsProblem {
-        ad: &s.a,
-        cd: &s.c,
-        l: &s.l,
-        noise: &noise,
-        lags: 10,
-    };
+    let pb = s.problem(&noise, 10);
     let est = estimate_noise(&pb, &s.innovations(steps, seed)).unwrap();
     assert_eq!(est.rank, (2, 2));
     let (Determined::Value(q), Determined::Value(r)) = (est.q_entries[0].1, est.r_entries[0].1)
@@ -269,13 +267,7 @@ fn undetermined_entries_are_refused() {
     s.c = DMatrix::zeros(1, 1);
     s.l = DMatrix::zeros(1, 1);
     let noise = s.noise();
-    let pb = AlsProblem {
-        ad: &s.a,
-        cd: &s.c,
-        l: &s.l,
-        noise: &noise,
-        lags: 5,
-    };
+    let pb = s.problem(&noise, 5);
     let est = estimate_noise(&pb, &s.innovations(2000, 1)).unwrap();
     assert_eq!(est.rank, (1, 2));
     assert_eq!(est.q_entries[0].1, Determined::No);
@@ -324,7 +316,7 @@ mod properties {
                 r_sd: 0.0,
             };
             let noise = s.noise();
-            let pb = AlsProblem { ad: &s.a, cd: &s.c, l: &s.l, noise: &noise, lags: 6 };
+            let pb = s.problem(&noise, 6);
             let c = modelled_autocovariances(&pb, &DMatrix::from_element(1, 1, q), &DMatrix::from_element(1, 1, r)).unwrap();
             let p = (q + l * l * r) / (1.0 - abar * abar);
             let tol = 64.0 / (1.0 - abar.abs()) * f64::EPSILON * (p + r + l.abs() * r);
