@@ -46,9 +46,9 @@ pub trait Stepper<W, const N: usize, const M: usize, const P: usize> {
 }
 
 macro_rules! lookout_stepper {
-    ($ty:ident, $bound:path, $state:ident) => {
-        impl<W: $bound, const N: usize, const M: usize, const P: usize> Stepper<W, N, M, P>
-            for $ty<'_, W, N, M, P>
+    ($ty:ident, $bound:path, $state:ident $(, $k:ident)?) => {
+        impl<W: $bound, const N: usize, const M: usize, const P: usize $(, $k: lookout::Accumulation)?>
+            Stepper<W, N, M, P> for $ty<'_, W, N, M, P $(, $k)?>
         {
             #[inline]
             fn step(&mut self, u: &[W; M], y: &[W; P]) {
@@ -67,9 +67,9 @@ macro_rules! lookout_stepper {
 lookout_stepper!(PredictorObserver, Real, estimate);
 lookout_stepper!(CurrentObserver, Real, predicted);
 lookout_stepper!(FusedObserver, Real, estimate);
-lookout_stepper!(FixedPredictorObserver, lookout::Fixed, estimate);
-lookout_stepper!(FixedCurrentObserver, lookout::Fixed, predicted);
-lookout_stepper!(FixedFusedObserver, lookout::Fixed, estimate);
+lookout_stepper!(FixedPredictorObserver, lookout::Fixed, estimate, K);
+lookout_stepper!(FixedCurrentObserver, lookout::Fixed, predicted, K);
+lookout_stepper!(FixedFusedObserver, lookout::Fixed, estimate, K);
 
 /// `k` steps of `s`. The state is passed through `black_box` before every
 /// step, so it lives in memory as an observer in a `static` does in
@@ -421,6 +421,15 @@ where
     let y: [Q; P] = core::array::from_fn(|j| q(sc.y[j], s.output[j]));
     let (pt, ct, ft) = sc.fixed::<Q>();
     let (pt, ct, ft) = (leak(pt), leak(ct), leak(ft));
+    // lookout's rows run on the tables with their proof of headroom, as a
+    // firmware running generated tables does (plain multiply-accumulate).
+    let proven = |e: lookout::HeadroomError| -> ! {
+        eprintln!("scenario ({N},{M},{P}): {e}");
+        std::process::exit(1)
+    };
+    let ptp = leak(pt.check().unwrap_or_else(|e| proven(e)));
+    let ctp = leak(ct.check().unwrap_or_else(|e| proven(e)));
+    let ftp = leak(ft.check().unwrap_or_else(|e| proven(e)));
     let predictor = FixedTables {
         a: pt.a,
         b: pt.b,
@@ -469,9 +478,13 @@ where
         }};
     }
     vec![
-        fixed_group!(PREDICTOR, predictor, FixedPredictorObserver::new(pt, x0)),
-        fixed_group!(CURRENT, current, FixedCurrentObserver::new(ct, x0)),
-        fixed_group!(FUSED, fused, FixedFusedObserver::new(ft, x0)),
+        fixed_group!(
+            PREDICTOR,
+            predictor,
+            FixedPredictorObserver::proven(ptp, x0)
+        ),
+        fixed_group!(CURRENT, current, FixedCurrentObserver::proven(ctp, x0)),
+        fixed_group!(FUSED, fused, FixedFusedObserver::proven(ftp, x0)),
     ]
 }
 

@@ -9,8 +9,11 @@
 //!   f64 tables with the runtime's `from_float` at the scales below (see
 //!   `build/fixed_tables.rs`: lookout-design emits only the format the model
 //!   file names);
-//! * `memory.x` copied to OUT_DIR, which goes on the link search path, and
-//!   `-Tlink.x` (cortex-m-rt's linker script, which includes `memory.x`).
+//! * the target core's memory map (`memory/<core>.x`) copied to OUT_DIR as
+//!   `memory.x`, which goes on the link search path, and `-Tlink.x` (the
+//!   linker script of cortex-m-rt or riscv-rt, which includes `memory.x`);
+//! * `core.rs` in OUT_DIR: the core's name and the counter ticks per
+//!   instruction the board QEMU emulates for it should show.
 //!
 //! Every model file is a `rerun-if-changed` input: editing one regenerates
 //! the tables on the next `cargo build`, with no manual step.
@@ -41,10 +44,21 @@ fn main() {
 fn run() -> Result<(), Box<dyn Error>> {
     let out = PathBuf::from(std::env::var_os("OUT_DIR").ok_or("OUT_DIR is not set")?);
 
-    std::fs::copy("memory.x", out.join("memory.x"))?;
+    let target = std::env::var("TARGET")?;
+    let (core, per_tick, memory) =
+        core_of(&target).ok_or_else(|| format!("no board for {target}"))?;
+    std::fs::write(
+        out.join("core.rs"),
+        format!(
+            "/// The core this image was built for.\npub const CORE: &str = {core:?};\n\
+             /// Counter ticks per instruction on the board QEMU emulates for it.\n\
+             pub const EXPECTED_PER_TICK: f64 = {per_tick:?};\n"
+        ),
+    )?;
+    std::fs::copy(memory, out.join("memory.x"))?;
     println!("cargo:rustc-link-search={}", out.display());
     println!("cargo:rustc-link-arg=-Tlink.x");
-    println!("cargo:rerun-if-changed=memory.x");
+    println!("cargo:rerun-if-changed=memory");
     println!("cargo:rerun-if-changed=build/fixed_tables.rs");
 
     for (model, stem) in MODELS {
@@ -66,6 +80,21 @@ fn run() -> Result<(), Box<dyn Error>> {
     let two_mass = design_file(Path::new("models/two_mass.toml"))?;
     fixed_tables::write(&two_mass, TWO_MASS_SCALES, &out.join("two_mass_fixed.rs"))?;
     Ok(())
+}
+
+/// The core of a compilation target: its name, the instructions per
+/// counter tick on the board QEMU emulates for it (SysTick on the core
+/// clock under `-icount shift=0`: 10⁹ / f_core; `minstret`: 1), and its
+/// memory map.
+fn core_of(target: &str) -> Option<(&'static str, f64, &'static str)> {
+    Some(match target {
+        "thumbv6m-none-eabi" => ("cortex-m0", 62.5, "memory/cortex-m0.x"),
+        "thumbv7m-none-eabi" => ("cortex-m3", 40.0, "memory/cortex-m.x"),
+        "thumbv7em-none-eabihf" => ("cortex-m4f", 40.0, "memory/cortex-m.x"),
+        "thumbv8m.main-none-eabihf" => ("cortex-m33", 50.0, "memory/cortex-m33.x"),
+        "riscv32imc-unknown-none-elf" => ("rv32imc", 1.0, "memory/riscv32.x"),
+        _ => return None,
+    })
 }
 
 /// Signal scale exponents (|v| < 2^s) of the conveyor's Q15 tables, chosen

@@ -3,7 +3,7 @@
 //! panic, this does not link.
 
 use lookout::{
-    ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
+    Accumulation, ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorObserver,
     FixedPredictorTables, FusedObserver, FusedTables, Matrix, Plant, PredictorObserver,
     PredictorTables, Q15, Q31, Real, Scales, Status,
@@ -99,29 +99,45 @@ macro_rules! fixed_checks {
             const P: usize = $p;
 
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn predictor_step(o: &mut FixedPredictorObserver<'_, Q, N, M, P>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
+            pub fn predictor_step<K: Accumulation>(o: &mut FixedPredictorObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
                 o.step_masked(u, y, v)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn predictor_predict(o: &mut FixedPredictorObserver<'_, Q, N, M, P>, u: &[Q; M]) -> Status {
+            pub fn predictor_predict<K: Accumulation>(o: &mut FixedPredictorObserver<'_, Q, N, M, P, K>, u: &[Q; M]) -> Status {
                 o.predict(u)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn current_step(o: &mut FixedCurrentObserver<'_, Q, N, M, P>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
+            pub fn current_step<K: Accumulation>(o: &mut FixedCurrentObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
                 o.step_masked(u, y, v)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn current_split(o: &mut FixedCurrentObserver<'_, Q, N, M, P>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
+            pub fn current_split<K: Accumulation>(o: &mut FixedCurrentObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
                 o.correct(u, y, v);
                 o.predict(u)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn fused_step(o: &mut FixedFusedObserver<'_, Q, N, M, P>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
+            pub fn fused_step<K: Accumulation>(o: &mut FixedFusedObserver<'_, Q, N, M, P, K>, u: &[Q; M], y: &[Q; P], v: ChannelMask) -> Status {
                 o.step_masked(u, y, v)
             }
             #[cfg_attr(not(feature = "probe"), no_panic)]
-            pub fn fused_predict(o: &mut FixedFusedObserver<'_, Q, N, M, P>, u: &[Q; M]) -> Status {
+            pub fn fused_predict<K: Accumulation>(o: &mut FixedFusedObserver<'_, Q, N, M, P, K>, u: &[Q; M]) -> Status {
                 o.predict(u)
+            }
+
+            /// Every checked step of the three observers, with either kernel.
+            fn exercise<K: Accumulation>(
+                mut po: FixedPredictorObserver<'_, Q, N, M, P, K>,
+                mut co: FixedCurrentObserver<'_, Q, N, M, P, K>,
+                mut fo: FixedFusedObserver<'_, Q, N, M, P, K>,
+                (u, y, v): (&[Q; M], &[Q; P], ChannelMask),
+            ) {
+                black_box(predictor_step(&mut po, u, y, v));
+                black_box(predictor_predict(&mut po, u));
+                black_box(current_step(&mut co, u, y, v));
+                black_box(current_split(&mut co, u, y, v));
+                black_box(fused_step(&mut fo, u, y, v));
+                black_box(fused_predict(&mut fo, u));
+                black_box((po.estimate(), co.filtered(), fo.estimate()));
             }
 
             pub fn run(seed: Q, exp: i8, wide: A) {
@@ -145,16 +161,22 @@ macro_rules! fixed_checks {
                 let ct = black_box(FixedCurrentTables { scales, a, b, exp: [exp; N], k: l, k_exp: [exp; N], output, gate });
                 let ft = black_box(FixedFusedTables { scales, f: a, g: b, h: l, exp: [exp; N], output, gate });
                 let (u, y, v) = (black_box([seed; M]), black_box([seed; P]), black_box(ChannelMask::all(P)));
-                let mut po = FixedPredictorObserver::new(&pt, [seed; N]);
-                let mut co = FixedCurrentObserver::new(&ct, [seed; N]);
-                let mut fo = FixedFusedObserver::new(&ft, [seed; N]);
-                black_box(predictor_step(&mut po, &u, &y, v));
-                black_box(predictor_predict(&mut po, &u));
-                black_box(current_step(&mut co, &u, &y, v));
-                black_box(current_split(&mut co, &u, &y, v));
-                black_box(fused_step(&mut fo, &u, &y, v));
-                black_box(fused_predict(&mut fo, &u));
-                black_box((po.estimate(), co.filtered(), fo.estimate()));
+                exercise(
+                    FixedPredictorObserver::new(&pt, [seed; N]),
+                    FixedCurrentObserver::new(&ct, [seed; N]),
+                    FixedFusedObserver::new(&ft, [seed; N]),
+                    (&u, &y, v),
+                );
+                // The plain multiply-accumulate kernels, on the same tables
+                // when they pass the headroom check.
+                if let (Ok(pt), Ok(ct), Ok(ft)) = (black_box(pt).check(), black_box(ct).check(), black_box(ft).check()) {
+                    exercise(
+                        FixedPredictorObserver::proven(&pt, [seed; N]),
+                        FixedCurrentObserver::proven(&ct, [seed; N]),
+                        FixedFusedObserver::proven(&ft, [seed; N]),
+                        (&u, &y, v),
+                    );
+                }
             }
         }
     };

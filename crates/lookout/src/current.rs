@@ -1,6 +1,6 @@
 //! The current-form (filter-form) observer, e.g. a steady-state Kalman filter.
 
-use crate::measurement::{all_finite, innovation};
+use crate::measurement::{all_finite, all_used, innovation, plain_innovation, plain_step};
 use crate::{ChannelMask, CurrentTables, Outcome, Real, Status};
 
 /// Discrete current-form observer: measurement update, then time update.
@@ -69,19 +69,20 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
 
     /// Measurement update: x̂\[k|k\] = x̂\[k|k−1\] + K r\[k\].
     pub fn correct(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
-        if !all_finite(u) {
-            return Status::rejected_input(P);
-        }
         let plant = &self.tables.plant;
-        let (r, status) = innovation(
-            &plant.c,
-            &plant.d,
-            self.tables.gate.as_ref(),
-            &self.predicted,
-            u,
-            y,
-            valid,
-        );
+        let gate = self.tables.gate.as_ref();
+        let x = &self.predicted;
+        let (r, status) = if plain_step(gate.is_some(), u, y, valid) {
+            // The fast path: one finiteness test, every channel used.
+            (
+                plain_innovation(&plant.c, &plant.d, x, u, y),
+                all_used::<P>(),
+            )
+        } else if all_finite(u) {
+            innovation(&plant.c, &plant.d, gate, x, u, y, valid)
+        } else {
+            return Status::rejected_input(P);
+        };
         self.filtered = self.predicted;
         if status.corrected() {
             self.tables.k.mul_add_to(&r, &mut self.filtered);

@@ -1,6 +1,6 @@
 //! The fused observer: one matrix–vector pass per table.
 
-use crate::measurement::{all_finite, usable};
+use crate::measurement::{all_finite, plain_step, usable};
 use crate::{ChannelMask, FusedTables, Outcome, Real, Status};
 
 /// Discrete observer on fused tables: x̂\[k+1\] = F x̂\[k\] + G u\[k\] + H y\[k\].
@@ -48,21 +48,33 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
     /// One step using only the channels in `valid` (and of those only the
     /// finite ones).
     pub fn step_masked(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
+        if !plain_step(self.tables.gate.is_some(), u, y, valid) {
+            return self.step_checked(u, y, valid);
+        }
+        // The fast path: N·N + N·M + N·P multiply-adds and one finiteness
+        // test.
+        self.advance(u, y);
+        Status {
+            outcome: Outcome::Corrected,
+            used: ChannelMask::all(P),
+            missing: ChannelMask::NONE,
+            saturations: 0,
+        }
+    }
+
+    /// The step with its inputs checked one by one: a non-finite input is
+    /// refused, a non-finite reading counts as missing; then predicted
+    /// readings stand in for missing (or gated) ones (with none missing and
+    /// no gate that is the fast path's update, reached when only the sum of
+    /// the inputs overflowed). Kept out of line so the fast path keeps its
+    /// registers.
+    #[inline(never)]
+    fn step_checked(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
         if !all_finite(u) {
             return Status::rejected_input(P);
         }
         let present = usable(y, valid);
-        if self.tables.gate.is_some() || present != ChannelMask::all(P) {
-            return self.step_standing_in(u, y, present);
-        }
-        // The fast path: N·N + N·M + N·P multiply-adds and nothing else.
-        self.advance(u, y);
-        Status {
-            outcome: Outcome::Corrected,
-            used: present,
-            missing: ChannelMask::NONE,
-            saturations: 0,
-        }
+        self.step_standing_in(u, y, present)
     }
 
     /// x̂ ← F x̂ + G u + H y.
@@ -75,11 +87,9 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
         self.x = next;
     }
 
-    /// The step with a gate or missing channels: predicted readings stand in
-    /// for missing (or gated) ones. Kept out of line so the fast path keeps
-    /// its registers.
-    #[cold]
-    #[inline(never)]
+    /// The step on the `present` channels: predicted readings stand in for
+    /// missing (or gated) ones.
+    #[inline(always)]
     fn step_standing_in(&mut self, u: &[T; M], y: &[T; P], present: ChannelMask) -> Status {
         let t = self.tables;
         let mut status = Status {

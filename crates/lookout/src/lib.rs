@@ -122,9 +122,10 @@ mod tables;
 pub use chi_square::chi_square_limit;
 pub use current::CurrentObserver;
 pub use fixed::{
-    ConvertError, Fixed, FixedCurrentObserver, FixedCurrentTables, FixedFusedObserver,
-    FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Q15,
-    Q31, Scales, TableName, Wide, dequantise_real, quantise_real, row_exponent,
+    Accumulation, ConvertError, Exact, Fixed, FixedCurrentObserver, FixedCurrentTables,
+    FixedFusedObserver, FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorObserver,
+    FixedPredictorTables, HeadroomError, Proven, Q15, Q31, Saturating, Scales, TableName, Wide,
+    dequantise_real, quantise_real, row_exponent,
 };
 pub use fused::FusedObserver;
 pub use gate::Gate;

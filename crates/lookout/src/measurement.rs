@@ -9,6 +9,56 @@ pub(crate) fn all_finite<T: Real, const K: usize>(v: &[T; K]) -> bool {
     v.iter().fold(true, |ok, x| ok & x.is_finite())
 }
 
+/// Whether a step can take its fast path: no gate, every channel requested,
+/// and every input and reading finite. Finiteness is tested once, on the
+/// sum of them all: a NaN or an infinity anywhere makes the sum non-finite,
+/// and a sum that overflows although every term is finite only sends the
+/// step to its full checks, which then decide as they always do.
+#[inline(always)]
+pub(crate) fn plain_step<T: Real, const M: usize, const P: usize>(
+    gated: bool,
+    u: &[T; M],
+    y: &[T; P],
+    requested: ChannelMask,
+) -> bool {
+    let all = ChannelMask::all(P);
+    let sum_finite = || {
+        u.iter()
+            .chain(y.iter())
+            .fold(T::ZERO, |s, &v| s + v)
+            .is_finite()
+    };
+    !gated && requested.and(all) == all && sum_finite()
+}
+
+/// The status of a step that used every channel.
+#[inline(always)]
+pub(crate) const fn all_used<const P: usize>() -> Status {
+    Status {
+        outcome: Outcome::Corrected,
+        used: ChannelMask::all(P),
+        missing: ChannelMask::NONE,
+        saturations: 0,
+    }
+}
+
+/// r = y − C x − D u on every channel (the fast path's innovation: the same
+/// operations, in the same order, as [`innovation`]'s with every channel
+/// used).
+#[inline(always)]
+pub(crate) fn plain_innovation<T: Real, const N: usize, const M: usize, const P: usize>(
+    c: &Matrix<T, P, N>,
+    d: &Matrix<T, P, M>,
+    x: &[T; N],
+    u: &[T; M],
+    y: &[T; P],
+) -> [T; P] {
+    let mut r = *y;
+    c.mul_sub_from(x, &mut r);
+    d.mul_sub_from(u, &mut r);
+    r
+}
+
 /// The requested channels whose reading is finite (branch-free; P ≤ 32 is
 /// a compile-time bound of every observer).
 #[inline(always)]
@@ -45,9 +95,7 @@ pub(crate) fn innovation<T: Real, const N: usize, const M: usize, const P: usize
     if present.is_empty() {
         return (r, status);
     }
-    r = *y;
-    c.mul_sub_from(x, &mut r);
-    d.mul_sub_from(u, &mut r);
+    r = plain_innovation(c, d, x, u, y);
     for (j, rj) in r.iter_mut().enumerate() {
         if !present.contains(j) {
             *rj = T::ZERO;

@@ -1,6 +1,6 @@
 //! The predictor (Luenberger) observer.
 
-use crate::measurement::{all_finite, innovation};
+use crate::measurement::{all_finite, all_used, innovation, plain_innovation, plain_step};
 use crate::{ChannelMask, PredictorTables, Real, Status};
 
 /// Discrete predictor (Luenberger) observer.
@@ -56,19 +56,19 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
     /// One step using only the channels in `valid` (and of those only the
     /// finite ones).
     pub fn step_masked(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
-        if !all_finite(u) {
-            return Status::rejected_input(P);
-        }
         let plant = &self.tables.plant;
-        let (r, status) = innovation(
-            &plant.c,
-            &plant.d,
-            self.tables.gate.as_ref(),
-            &self.x,
-            u,
-            y,
-            valid,
-        );
+        let gate = self.tables.gate.as_ref();
+        let (r, status) = if plain_step(gate.is_some(), u, y, valid) {
+            // The fast path: one finiteness test, every channel used.
+            (
+                plain_innovation(&plant.c, &plant.d, &self.x, u, y),
+                all_used::<P>(),
+            )
+        } else if all_finite(u) {
+            innovation(&plant.c, &plant.d, gate, &self.x, u, y, valid)
+        } else {
+            return Status::rejected_input(P);
+        };
         let mut next = plant.a.mul(&self.x);
         plant.b.mul_add_to(u, &mut next);
         if status.corrected() {

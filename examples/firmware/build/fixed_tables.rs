@@ -140,9 +140,9 @@ fn predictor_source<Q: Fixed, const N: usize, const M: usize, const P: usize>(
 ) {
     let _ = writeln!(
         s,
-        "    /// Predictor tables in {ty}.\n    pub static {item}: lookout::FixedPredictorTables<lookout::{ty}, {N}, {M}, {P}> = \
-         lookout::FixedPredictorTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        \
-         l: {},\n        exp: {:?},\n        output: {},\n        gate: None,\n    }};",
+        "    /// Predictor tables in {ty}.\n    pub static {item}: lookout::Proven<lookout::FixedPredictorTables<lookout::{ty}, {N}, {M}, {P}>> = \
+         match (lookout::FixedPredictorTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        \
+         l: {},\n        exp: {:?},\n        output: {},\n        gate: None,\n    }}).prove() {{\n        Some(t) => t,\n        None => panic!(\"{item}: a row breaks the accumulator headroom rule\"),\n    }};",
         q_matrix(&t.a, ty),
         q_matrix(&t.b, ty),
         q_matrix(&t.l, ty),
@@ -159,9 +159,9 @@ fn fused_source<Q: Fixed, const N: usize, const M: usize, const P: usize>(
 ) {
     let _ = writeln!(
         s,
-        "    /// Fused tables in {ty} ({} multiply-adds per step).\n    pub static {item}: lookout::FixedFusedTables<lookout::{ty}, {N}, {M}, {P}> = \
-         lookout::FixedFusedTables {{\n        scales: SCALES,\n        f: {},\n        g: {},\n        \
-         h: {},\n        exp: {:?},\n        output: {},\n        gate: None,\n    }};",
+        "    /// Fused tables in {ty} ({} multiply-adds per step).\n    pub static {item}: lookout::Proven<lookout::FixedFusedTables<lookout::{ty}, {N}, {M}, {P}>> = \
+         match (lookout::FixedFusedTables {{\n        scales: SCALES,\n        f: {},\n        g: {},\n        \
+         h: {},\n        exp: {:?},\n        output: {},\n        gate: None,\n    }}).prove() {{\n        Some(t) => t,\n        None => panic!(\"{item}: a row breaks the accumulator headroom rule\"),\n    }};",
         N * (N + M + P),
         q_matrix(&t.f, ty),
         q_matrix(&t.g, ty),

@@ -1,51 +1,49 @@
-//! Instruction counts from SysTick under QEMU's `-icount shift=0`.
+//! Instruction counts from the board's counter (see [`board`]).
 //!
-//! With that flag each guest instruction advances virtual time by exactly
-//! 1 ns, so SysTick, clocked from the core clock, counts instructions, not
-//! cycles (a real Cortex-M4 takes more cycles than instructions: loads,
-//! multiplies, branches and flash wait states cost extra). The board's core
-//! clock is 25 MHz, so one tick should be 40 instructions; [`calibrate`]
-//! measures that on a loop of known length instead of trusting it.
+//! Under QEMU's `-icount shift=0` each guest instruction advances virtual
+//! time by exactly 1 ns, so a Cortex-M SysTick, clocked from the core clock,
+//! counts instructions, not cycles (a real core takes more cycles than
+//! instructions: loads, multiplies, branches and flash wait states cost
+//! extra); RISC-V's `minstret` counts instructions retired directly.
+//! [`calibrate`](Counter::calibrate) measures instructions per tick on a
+//! loop of known length instead of trusting the board's clock.
 
+use crate::board;
 use crate::observe::Observe;
 use core::hint::black_box;
-use cortex_m::peripheral::SYST;
-use cortex_m::peripheral::syst::SystClkSource;
 
 /// The steps timed per variant.
 pub const STEPS: u32 = 1000;
 
-/// A free-running SysTick: 24 bits counting down from 2²⁴ − 1.
+/// The board's free-running counter.
 pub struct Counter {
     /// Instructions per tick, from [`calibrate`].
     pub per_tick: f64,
 }
 
 impl Counter {
-    /// Starts SysTick on the core clock, counting down from 2²⁴ − 1.
-    pub fn start(syst: &mut SYST) -> Self {
-        syst.set_clock_source(SystClkSource::Core);
-        syst.set_reload(0x00FF_FFFF);
-        syst.clear_current();
-        syst.enable_counter();
-        Self { per_tick: 40.0 }
+    /// Starts the counter; `None` if it could not be.
+    pub fn start() -> Option<Self> {
+        board::start_counter().then_some(Self {
+            per_tick: board::EXPECTED_PER_TICK,
+        })
     }
 
-    /// Ticks taken by `f` (at most 2²⁴ − 1 of them).
+    /// Ticks taken by `f` (less than one wrap of the counter: 2²⁴ ticks for
+    /// SysTick).
     #[inline(always)]
     pub fn ticks(&self, f: impl FnOnce()) -> u32 {
-        let start = SYST::get_current();
+        let start = board::now();
         f();
-        let end = SYST::get_current();
-        start.wrapping_sub(end) & 0x00FF_FFFF
+        board::elapsed(start, board::now())
     }
 
-    /// Measures instructions per tick on [`spin`], whose length is known
+    /// Measures instructions per tick on [`board::spin`], whose length is known
     /// exactly: the difference of 2·K and K iterations is 2·K instructions.
     pub fn calibrate(&mut self) -> (u32, f64) {
         const K: u32 = 100_000;
-        let long = self.ticks(|| spin(2 * K));
-        let short = self.ticks(|| spin(K));
+        let long = self.ticks(|| board::spin(2 * K));
+        let short = self.ticks(|| board::spin(K));
         let diff = long.saturating_sub(short);
         self.per_tick = if diff == 0 {
             0.0
@@ -74,22 +72,6 @@ impl Counter {
             }
         });
         (f64::from(full) - f64::from(empty)) * self.per_tick / f64::from(STEPS)
-    }
-}
-
-/// Exactly 2·n instructions for n ≥ 1: `subs` and `bne` n times.
-#[inline(never)]
-fn spin(n: u32) {
-    // SAFETY: a register-only countdown loop; it touches no memory and
-    // leaves the flags clobbered, which asm! assumes by default.
-    unsafe {
-        core::arch::asm!(
-            "2:",
-            "subs {n}, #1",
-            "bne 2b",
-            n = inout(reg) n => _,
-            options(nomem, nostack),
-        );
     }
 }
 

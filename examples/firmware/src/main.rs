@@ -1,9 +1,11 @@
-//! Firmware example: the lookout runtime on a Cortex-M4F, under QEMU.
+//! Firmware example: the lookout runtime on the common microcontroller
+//! cores (Cortex-M0, M3, M4F, M33 and RV32IMC), under QEMU; what differs
+//! between them is in [`board`].
 //!
 //! The tables come from the demo models through build.rs. On the target the
 //! firmware
 //!
-//! 1. calibrates SysTick as an instruction counter (see [`cost`]);
+//! 1. calibrates the board's counter as an instruction counter (see [`cost`]);
 //! 2. runs the Q31 "heated block" scenario and compares its state checksum
 //!    with the one the host test recorded (bit-exact host/target);
 //! 3. simulates each demo plant in f64 from a state the observers are not
@@ -17,6 +19,8 @@
 #![no_std]
 #![no_main]
 
+#[macro_use]
+mod board;
 mod converge;
 mod cost;
 mod heated_block;
@@ -26,8 +30,6 @@ mod stack;
 mod tables;
 
 use converge::Scenario;
-use cortex_m_rt::{ExceptionFrame, entry, exception};
-use cortex_m_semihosting::{debug, hprintln};
 use lookout::{
     CurrentObserver, FixedFusedObserver, FixedPredictorObserver, FusedObserver, PredictorObserver,
 };
@@ -43,41 +45,36 @@ const TOL_F32: f64 = 1.0 / 262_144.0;
 const TOL_Q31: f64 = 1.0 / 4_194_304.0;
 const TOL_Q15: f64 = 1.0 / 256.0;
 
-#[entry]
+#[board::entry]
 fn main() -> ! {
+    out!("core {}", board::CORE);
     let ok = run();
-    hprintln!("verdict {}", if ok { "pass" } else { "FAIL" });
-    debug::exit(if ok {
-        debug::EXIT_SUCCESS
-    } else {
-        debug::EXIT_FAILURE
-    });
-    #[allow(clippy::empty_loop)]
-    loop {}
+    out!("verdict {}", if ok { "pass" } else { "FAIL" });
+    board::exit(ok)
 }
 
 /// Every check, in order; true when all passed.
 fn run() -> bool {
-    let Some(mut core) = cortex_m::Peripherals::take() else {
-        hprintln!("error: core peripherals already taken");
+    let Some(mut counter) = cost::Counter::start() else {
+        out!("error: the counter could not be started");
         return false;
     };
-    let mut counter = cost::Counter::start(&mut core.SYST);
     let mut ok = true;
 
     let (ticks, per_tick) = counter.calibrate();
-    let calibrated = (per_tick - 40.0).abs() < 0.01;
-    hprintln!(
-        "calibration ticks={} instructions_per_tick={:.3} (expected 40) {}",
+    let calibrated = (per_tick - board::EXPECTED_PER_TICK).abs() < 0.01;
+    out!(
+        "calibration ticks={} instructions_per_tick={:.3} (expected {}) {}",
         ticks,
         per_tick,
+        board::EXPECTED_PER_TICK,
         pass(calibrated)
     );
     ok &= calibrated;
 
     let hb = heated_block::run();
     let bit_exact = hb.checksum == heated_block::CHECKSUM && hb.bad_statuses == 0;
-    hprintln!(
+    out!(
         "checksum heated_block q31 steps={} got={:#018x} host={:#018x} last=[{}, {}] {}",
         heated_block::STEPS,
         hb.checksum,
@@ -88,7 +85,7 @@ fn run() -> bool {
     );
     ok &= bit_exact;
 
-    hprintln!("convergence: max |x̂ − x| / full scale over the last 500 of 2000 steps");
+    out!("convergence: max |x̂ − x| / full scale over the last 500 of 2000 steps");
     ok &= conveyor(&counter);
     ok &= two_mass(&counter);
     ok &= heated_block_cost(&counter);
@@ -122,7 +119,7 @@ fn check<O: Observe<N, M, P>, const N: usize, const M: usize, const P: usize>(
         && 10.0 * v.settled <= v.initial
         && v.uncorrected == 0
         && v.saturations == 0;
-    hprintln!(
+    out!(
         "check variant={} scalar={} initial={:.3e} settled={:.3e} tolerance={:.3e} uncorrected={} saturations={} {}",
         name,
         O::SCALAR,
@@ -140,7 +137,7 @@ fn check<O: Observe<N, M, P>, const N: usize, const M: usize, const P: usize>(
     let per_step = counter.per_step(&mut observer, &u, &y);
     let stack = stack::used_by(|| cost::one_step(&mut observer, &u, &y));
     let macs = observer.macs();
-    hprintln!(
+    out!(
         "cost variant={} scalar={} n={} m={} p={} instructions={:.2} macs={}",
         name,
         O::SCALAR,
@@ -150,7 +147,7 @@ fn check<O: Observe<N, M, P>, const N: usize, const M: usize, const P: usize>(
         per_step,
         macs
     );
-    hprintln!(
+    out!(
         "  per multiply-add {:.2} instructions (instruction counts, not cycles); stack {} bytes",
         per_step / macs as f64,
         stack
@@ -189,21 +186,21 @@ fn conveyor(counter: &cost::Counter) -> bool {
         &scenario,
         TOL_Q31,
         // Emitted by lookout-design from conveyor.toml's [fixed_point].
-        FixedPredictorObserver::new(&f32::conveyor::PREDICTOR_Q31, [lookout::Q31(0); 2]),
+        FixedPredictorObserver::proven(&f32::conveyor::PREDICTOR_Q31, [lookout::Q31(0); 2]),
     );
     ok &= check(
         counter,
         "conveyor-fused",
         &scenario,
         TOL_Q31,
-        FixedFusedObserver::new(&f32::conveyor::FUSED_Q31, [lookout::Q31(0); 2]),
+        FixedFusedObserver::proven(&f32::conveyor::FUSED_Q31, [lookout::Q31(0); 2]),
     );
     ok &= check(
         counter,
         "conveyor-fused",
         &scenario,
         TOL_Q15,
-        FixedFusedObserver::new(&q::FUSED_Q15, [lookout::Q15(0); 2]),
+        FixedFusedObserver::proven(&q::FUSED_Q15, [lookout::Q15(0); 2]),
     );
     // The Kalman design gates innovations beyond the 99.9 % chi-square
     // quantile (3.29 standard deviations of the innovation, 2.0 mrad here), so
@@ -254,45 +251,35 @@ fn two_mass(counter: &cost::Counter) -> bool {
         &scenario,
         TOL_Q31,
         // Emitted by lookout-design from two_mass.toml's [fixed_point].
-        FixedFusedObserver::new(&f32::two_mass::FUSED_Q31, [lookout::Q31(0); 4]),
+        FixedFusedObserver::proven(&f32::two_mass::FUSED_Q31, [lookout::Q31(0); 4]),
     );
     ok &= check(
         counter,
         "two-mass-fused",
         &scenario,
         TOL_Q15,
-        FixedFusedObserver::new(&q::FUSED_Q15, [lookout::Q15(0); 4]),
+        FixedFusedObserver::proven(&q::FUSED_Q15, [lookout::Q15(0); 4]),
     );
     ok
 }
 
 /// The heated block's cost line (its check is the checksum above).
 fn heated_block_cost(counter: &cost::Counter) -> bool {
-    let mut o = FixedPredictorObserver::new(&heated_block::TABLES, [lookout::Q31(0); 2]);
+    let mut o = FixedPredictorObserver::proven(&heated_block::TABLES, [lookout::Q31(0); 2]);
     let (u, y, _) = heated_block::inputs(0);
     let per_step = counter.per_step(&mut o, &u, &y);
     let stack = stack::used_by(|| cost::one_step(&mut o, &u, &y));
-    hprintln!(
+    out!(
         "cost variant=heated-block-predictor scalar=q31 n=2 m=1 p=1 instructions={:.2} macs={}",
         per_step,
         o.macs()
     );
-    hprintln!("  stack {} bytes", stack);
+    out!("  stack {} bytes", stack);
     true
-}
-
-#[exception]
-unsafe fn HardFault(frame: &ExceptionFrame) -> ! {
-    hprintln!("HardFault at pc={:#010x}", frame.pc());
-    debug::exit(debug::EXIT_FAILURE);
-    #[allow(clippy::empty_loop)]
-    loop {}
 }
 
 #[panic_handler]
 fn panic(info: &core::panic::PanicInfo) -> ! {
-    hprintln!("panic: {}", info);
-    debug::exit(debug::EXIT_FAILURE);
-    #[allow(clippy::empty_loop)]
-    loop {}
+    out!("panic: {}", info);
+    board::exit(false)
 }

@@ -3,8 +3,8 @@
 //! the plant's f64 signals in and the estimate out.
 
 use lookout::{
-    CurrentObserver, Fixed, FixedFusedObserver, FixedPredictorObserver, FusedObserver,
-    PredictorObserver, Q15, Q31, Status,
+    Accumulation, CurrentObserver, Fixed, FixedFusedObserver, FixedPredictorObserver,
+    FusedObserver, PredictorObserver, Q15, Q31, Status,
 };
 
 /// An observer of N states, M inputs and P outputs, stepped in `Scalar`.
@@ -79,8 +79,8 @@ macro_rules! quantise {
 
 macro_rules! observe_fixed {
     ($($obs:ident, $q:ident, $name:literal, $macs:ident;)*) => {$(
-        impl<const N: usize, const M: usize, const P: usize> Observe<N, M, P>
-            for $obs<'_, $q, N, M, P>
+        impl<const N: usize, const M: usize, const P: usize, K: Accumulation> Observe<N, M, P>
+            for $obs<'_, $q, N, M, P, K>
         {
             type Scalar = $q;
             const SCALAR: &'static str = $name;

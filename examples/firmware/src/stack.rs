@@ -13,7 +13,7 @@ const DEPTH: usize = 4096;
 /// [`DEPTH`] means "at least").
 #[inline(never)]
 pub fn used_by(f: impl FnOnce()) -> usize {
-    let sp = cortex_m::register::msp::read() as usize;
+    let sp = crate::board::stack_pointer();
     let bottom = sp.saturating_sub(DEPTH) as *mut u32;
     let words = DEPTH / 4;
     for i in 0..words {

@@ -71,6 +71,15 @@ fn peaks(values: &[f64]) -> String {
     format!("[{}]", items.join(", "))
 }
 
+/// A `static` of tables proven at compile time to obey the accumulator
+/// headroom rule (`lookout::Proven`): `prove` is a `const fn`, so a table
+/// that breaks the rule stops the build with the item's name.
+pub(crate) fn proven(doc: &str, item: &str, ty: &str, value: &str) -> String {
+    format!(
+        "    /// {doc}, proven at compile time to leave the accumulator headroom\n    /// (an observer's `proven` constructor adds products plainly on it).\n    pub static {item}: lookout::Proven<lookout::{ty}> = match ({value}).prove() {{\n        Some(tables) => tables,\n        None => panic!(\"{item}: a row breaks the accumulator headroom rule\"),\n    }};"
+    )
+}
+
 /// The Q tables' items inside the model's module.
 pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
     let ty = format_name(fx.format);
@@ -100,25 +109,41 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
                 let l = table(t, "l")?;
                 let _ = writeln!(
                     s,
-                    "    /// Predictor tables in {ty} (integer-only step).\n    pub static PREDICTOR_{suffix}: lookout::FixedPredictorTables<lookout::{ty}, N, M, P> = lookout::FixedPredictorTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        l: {},\n        exp: {},\n        output: {},\n        gate: None,\n    }};",
-                    qmatrix(ty, a),
-                    qmatrix(ty, b),
-                    qmatrix(ty, l),
-                    ints(&a.exponents),
-                    output(t)?
+                    "{}",
+                    proven(
+                        &format!("Predictor tables in {ty} (integer-only step)"),
+                        &format!("PREDICTOR_{suffix}"),
+                        &format!("FixedPredictorTables<lookout::{ty}, N, M, P>"),
+                        &format!(
+                            "lookout::FixedPredictorTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        l: {},\n        exp: {},\n        output: {},\n        gate: None,\n    }}",
+                            qmatrix(ty, a),
+                            qmatrix(ty, b),
+                            qmatrix(ty, l),
+                            ints(&a.exponents),
+                            output(t)?
+                        )
+                    )
                 );
             }
             Form::Current => {
                 let k = table(t, "k")?;
                 let _ = writeln!(
                     s,
-                    "    /// Current-form tables in {ty} (integer-only step).\n    pub static CURRENT_{suffix}: lookout::FixedCurrentTables<lookout::{ty}, N, M, P> = lookout::FixedCurrentTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        exp: {},\n        k: {},\n        k_exp: {},\n        output: {},\n        gate: None,\n    }};",
-                    qmatrix(ty, a),
-                    qmatrix(ty, b),
-                    ints(&a.exponents),
-                    qmatrix(ty, k),
-                    ints(&k.exponents),
-                    output(t)?
+                    "{}",
+                    proven(
+                        &format!("Current-form tables in {ty} (integer-only step)"),
+                        &format!("CURRENT_{suffix}"),
+                        &format!("FixedCurrentTables<lookout::{ty}, N, M, P>"),
+                        &format!(
+                            "lookout::FixedCurrentTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        exp: {},\n        k: {},\n        k_exp: {},\n        output: {},\n        gate: None,\n    }}",
+                            qmatrix(ty, a),
+                            qmatrix(ty, b),
+                            ints(&a.exponents),
+                            qmatrix(ty, k),
+                            ints(&k.exponents),
+                            output(t)?
+                        )
+                    )
                 );
             }
         }
@@ -127,12 +152,20 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
     let f = table(t, "f")?;
     let _ = writeln!(
         s,
-        "    /// Fused tables in {ty} (integer-only step).\n    pub static FUSED_{suffix}: lookout::FixedFusedTables<lookout::{ty}, N, M, P> = lookout::FixedFusedTables {{\n        scales: SCALES,\n        f: {},\n        g: {},\n        h: {},\n        exp: {},\n        output: {},\n        gate: None,\n    }};",
-        qmatrix(ty, f),
-        qmatrix(ty, table(t, "g")?),
-        qmatrix(ty, table(t, "h")?),
-        ints(&f.exponents),
-        output(t)?
+        "{}",
+        proven(
+            &format!("Fused tables in {ty} (integer-only step)"),
+            &format!("FUSED_{suffix}"),
+            &format!("FixedFusedTables<lookout::{ty}, N, M, P>"),
+            &format!(
+                "lookout::FixedFusedTables {{\n        scales: SCALES,\n        f: {},\n        g: {},\n        h: {},\n        exp: {},\n        output: {},\n        gate: None,\n    }}",
+                qmatrix(ty, f),
+                qmatrix(ty, table(t, "g")?),
+                qmatrix(ty, table(t, "h")?),
+                ints(&f.exponents),
+                output(t)?
+            )
+        )
     );
     Some(s)
 }

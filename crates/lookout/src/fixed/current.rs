@@ -1,10 +1,12 @@
 //! The fixed-point current-form (filter-form) observer.
 
-use super::arith::{Saturations, mul_acc, round_row};
+use super::arith::{Accumulation, Exact, Kernels, Saturating, Saturations};
 use super::format::{Fixed, Wide};
+use super::headroom::Proven;
 use super::measurement::{initial_status, innovation};
 use super::tables::FixedCurrentTables;
 use crate::{ChannelMask, Status};
+use core::marker::PhantomData;
 
 /// Discrete current-form observer (e.g. steady-state Kalman filter) in Q15
 /// or Q31, integer only.
@@ -29,8 +31,20 @@ use crate::{ChannelMask, Status};
 /// Dropouts are channels outside the mask; saturated stores are counted in
 /// [`Status::saturations`] (a split [`correct`](Self::correct) and
 /// [`predict`](Self::predict) each report their own).
+///
+/// `K` says how products are added: built with [`new`](Self::new) on any
+/// tables, saturating; built with [`proven`](Self::proven) on tables that
+/// carry the proof of headroom ([`Proven`]), plainly, with the same results.
 #[derive(Clone, Debug)]
-pub struct FixedCurrentObserver<'t, Q: Fixed, const N: usize, const M: usize, const P: usize> {
+pub struct FixedCurrentObserver<
+    't,
+    Q: Fixed,
+    const N: usize,
+    const M: usize,
+    const P: usize,
+    K: Accumulation = Saturating,
+> {
+    kernel: PhantomData<K>,
     tables: &'t FixedCurrentTables<Q, N, M, P>,
     predicted: [Q; N],
     filtered: [Q; N],
@@ -40,13 +54,19 @@ pub struct FixedCurrentObserver<'t, Q: Fixed, const N: usize, const M: usize, co
     pending: Option<Status>,
 }
 
-impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
-    FixedCurrentObserver<'t, Q, N, M, P>
-{
+constructors!(
+    FixedCurrentObserver,
+    FixedCurrentTables,
     /// An observer on `tables` whose prediction x̂[0|−1] is `x0`.
-    pub const fn new(tables: &'t FixedCurrentTables<Q, N, M, P>, x0: [Q; N]) -> Self {
+);
+
+impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation>
+    FixedCurrentObserver<'t, Q, N, M, P, K>
+{
+    const fn with_kernel(tables: &'t FixedCurrentTables<Q, N, M, P>, x0: [Q; N]) -> Self {
         const { assert!(P <= 32, "an observer has at most 32 outputs") };
         Self {
+            kernel: PhantomData,
             tables,
             predicted: x0,
             filtered: x0,
@@ -75,7 +95,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
     pub fn correct(&mut self, u: &[Q; M], y: &[Q; P], valid: ChannelMask) -> Status {
         let t = self.tables;
         let mut sat = Saturations::default();
-        let (r, mut status) = innovation(
+        let (r, mut status) = innovation::<K, Q, N, M, P>(
             &t.output,
             t.gate.as_ref(),
             &self.predicted,
@@ -87,9 +107,9 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
         self.filtered = self.predicted;
         if status.corrected() {
             let mut acc = [<Q::Acc as Wide>::ZERO; N];
-            mul_acc(&t.k, &r, &mut acc);
+            K::mul_acc(&t.k, &r, &mut acc);
             for ((f, &a), &e) in self.filtered.iter_mut().zip(acc.iter()).zip(t.k_exp.iter()) {
-                *f = sat.store(f.widen().sat_add(round_row::<Q>(a, e)));
+                *f = sat.store(f.widen().sat_add(K::round::<Q>(a, e)));
             }
         }
         self.r = r;
@@ -121,9 +141,9 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
     fn advance(&mut self, u: &[Q; M], sat: &mut Saturations) {
         let t = self.tables;
         let mut acc = [<Q::Acc as Wide>::ZERO; N];
-        mul_acc(&t.a, &self.filtered, &mut acc);
-        mul_acc(&t.b, u, &mut acc);
-        self.predicted = sat.store_rows(&acc, &t.exp);
+        K::mul_acc(&t.a, &self.filtered, &mut acc);
+        K::mul_acc(&t.b, u, &mut acc);
+        self.predicted = sat.store_rows::<K, Q, N>(&acc, &t.exp);
         self.pending = None;
     }
 

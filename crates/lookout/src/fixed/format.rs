@@ -19,6 +19,18 @@ pub trait Wide: Copy + Ord + Debug + core::hash::Hash + sealed::Sealed {
     const MAX: Self;
     /// `self + other`, saturating.
     fn sat_add(self, other: Self) -> Self;
+    /// One.
+    const ONE: Self;
+    /// Half the width in bits: 16 or 32.
+    const HALF_BITS: u32;
+    /// `self >> shift`, arithmetic, for `shift` below the width.
+    fn shr(self, shift: u32) -> Self;
+    /// `self >> shift`, arithmetic, for `shift` below half the width
+    /// (larger shifts are taken modulo half the width).
+    fn shr_below_half(self, shift: u32) -> Self;
+    /// `self + other`, wrapping: only for sums proven in range (tables
+    /// with [headroom](crate::Proven)), where it equals the saturating add.
+    fn add_exact(self, other: Self) -> Self;
     /// `self − other`, saturating.
     fn sat_sub(self, other: Self) -> Self;
     /// `self · other`, saturating.
@@ -142,15 +154,51 @@ pub trait Fixed: Copy + Ord + Debug + Default + ConstZero + sealed::Sealed {
     fn from_i64_saturating(value: i64) -> Self;
 }
 
+/// `value >> shift` for shift < 16 (taken modulo 16).
+#[inline(always)]
+fn shr_below_half_i32(value: i32, shift: u32) -> i32 {
+    value.wrapping_shr(shift & 15)
+}
+
+/// `value >> shift` for shift < 32 (taken modulo 32), written on the two
+/// 32-bit halves, which a 32-bit core shifts in five instructions (the
+/// compiler's general 64-bit shift also handles shifts of 32 and more,
+/// with a conditional block). The high half's bits enter the low half as
+/// (high << 1) << (31 − shift), which stays defined at shift 0.
+#[inline(always)]
+fn shr_below_half_i64(value: i64, shift: u32) -> i64 {
+    let k = shift & 31;
+    let (lo, hi) = (value as u32, value.wrapping_shr(32) as i32);
+    let low = lo.wrapping_shr(k)
+        | (hi as u32)
+            .wrapping_shl(1)
+            .wrapping_shl(31_u32.wrapping_sub(k));
+    (i64::from(hi.wrapping_shr(k)) << 32) | i64::from(low)
+}
+
 macro_rules! wide {
-    ($w:ty) => {
+    ($w:ty, $shr_below_half:ident) => {
         impl sealed::Sealed for $w {}
         impl Wide for $w {
             const ZERO: Self = 0;
             const MAX: Self = <$w>::MAX;
+            const ONE: Self = 1;
+            const HALF_BITS: u32 = <$w>::BITS / 2;
+            #[inline(always)]
+            fn shr(self, shift: u32) -> Self {
+                self.wrapping_shr(shift)
+            }
+            #[inline(always)]
+            fn shr_below_half(self, shift: u32) -> Self {
+                $shr_below_half(self, shift)
+            }
             #[inline(always)]
             fn sat_add(self, other: Self) -> Self {
                 self.saturating_add(other)
+            }
+            #[inline(always)]
+            fn add_exact(self, other: Self) -> Self {
+                self.wrapping_add(other)
             }
             #[inline(always)]
             fn sat_sub(self, other: Self) -> Self {
@@ -185,11 +233,45 @@ macro_rules! wide {
     };
 }
 
-wide!(i32);
-wide!(i64);
+wide!(i32, shr_below_half_i32);
+wide!(i64, shr_below_half_i64);
+
+/// The exact product of two Q15 words: |a · b| ≤ 2³⁰, so it never wraps.
+#[inline(always)]
+fn mul_i16(a: i16, b: i16) -> i32 {
+    i32::from(a).wrapping_mul(i32::from(b))
+}
+
+/// The exact product of two Q31 words: |a · b| ≤ 2⁶², so it never wraps.
+/// Where the core has a 32 × 32 → 64 multiply (`smull`, `smlal`; RISC-V
+/// `mul` + `mulh`) the compiler emits it for this.
+#[cfg(not(lookout_no_long_multiply))]
+#[inline(always)]
+fn mul_i32(a: i32, b: i32) -> i64 {
+    i64::from(a).wrapping_mul(i64::from(b))
+}
+
+/// The exact product of two Q31 words on Armv6-M (Cortex-M0/M0+), whose
+/// only multiply is 32 × 32 → 32 (`muls`): from four 16 × 16 products
+/// instead of the general 64 × 64 multiply helper (`__aeabi_lmul`), which
+/// the plain i64 product would call. With a = aₕ·2¹⁶ + aₗ (aₕ signed, aₗ in
+/// [0, 2¹⁶)), a·b = aₕbₕ·2³² + (aₕbₗ + aₗbₕ)·2¹⁶ + aₗbₗ; each partial
+/// product fits 32 bits (|aₕbₕ| ≤ 2³⁰, |aₕbₗ| < 2³¹, aₗbₗ < 2³² unsigned)
+/// and the sum is exact in i64 (|a·b| ≤ 2⁶²), so the wrapping forms never
+/// wrap.
+#[cfg(lookout_no_long_multiply)]
+#[inline(always)]
+fn mul_i32(a: i32, b: i32) -> i64 {
+    let (ah, al) = (a >> 16, a & 0xffff);
+    let (bh, bl) = (b >> 16, b & 0xffff);
+    let high = i64::from(ah.wrapping_mul(bh));
+    let mid = i64::from(ah.wrapping_mul(bl)).wrapping_add(i64::from(al.wrapping_mul(bh)));
+    let low = i64::from(al.cast_unsigned().wrapping_mul(bl.cast_unsigned()));
+    (high << 32).wrapping_add(mid << 16).wrapping_add(low)
+}
 
 macro_rules! q_format {
-    ($(#[$doc:meta])* $name:ident, $word:ty, $acc:ty, $frac:literal) => {
+    ($(#[$doc:meta])* $name:ident, $word:ty, $acc:ty, $frac:literal, $mul:ident) => {
         $(#[$doc])*
         #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, PartialOrd, Ord, Hash)]
         pub struct $name(pub $word);
@@ -203,8 +285,7 @@ macro_rules! q_format {
             const MAX: Self = Self(<$word>::MAX);
             #[inline(always)]
             fn mul_wide(self, other: Self) -> $acc {
-                // |a · b| ≤ 2^(2F) < the accumulator's MAX: never wraps.
-                <$acc>::from(self.0).wrapping_mul(<$acc>::from(other.0))
+                $mul(self.0, other.0)
             }
             #[inline(always)]
             fn widen(self) -> $acc {
@@ -286,10 +367,10 @@ macro_rules! q_format {
 q_format!(
     /// A Q15 value: the `i16` q stands for q · 2⁻¹⁵ of its signal's scale
     /// (see the [number format](Fixed)).
-    Q15, i16, i32, 15
+    Q15, i16, i32, 15, mul_i16
 );
 q_format!(
     /// A Q31 value: the `i32` q stands for q · 2⁻³¹ of its signal's scale
     /// (see the [number format](Fixed)).
-    Q31, i32, i64, 31
+    Q31, i32, i64, 31, mul_i32
 );

@@ -1,10 +1,12 @@
 //! The fixed-point fused observer: one accumulated pass over [F G H].
 
-use super::arith::{Saturations, mul_acc, round_row, row_acc};
+use super::arith::{Accumulation, Exact, Kernels, Saturating, Saturations};
 use super::format::{Fixed, Wide};
+use super::headroom::Proven;
 use super::measurement::{initial_status, predicted_outputs};
 use super::tables::FixedFusedTables;
 use crate::{ChannelMask, Outcome, Status};
+use core::marker::PhantomData;
 
 /// Discrete observer on fused tables, x̂\[k+1\] = round(F x̂\[k\] + G u\[k\] +
 /// H y\[k\]), in Q15 or Q31, integer only.
@@ -22,25 +24,44 @@ use crate::{ChannelMask, Outcome, Status};
 /// when every channel is used, plus ½ Σ_j |H̄_ij| LSB over stood-in
 /// channels j (H̄ normalised); with ‖F̄‖∞ = ρ < 1 the deviation stays below
 /// that bound / (1 − ρ).
+///
+/// `K` says how products are added: built with [`new`](Self::new) on any
+/// tables, saturating; built with [`proven`](Self::proven) on tables that
+/// carry the proof of headroom ([`Proven`]), plainly, with the same results.
 #[derive(Clone, Debug)]
-pub struct FixedFusedObserver<'t, Q: Fixed, const N: usize, const M: usize, const P: usize> {
+pub struct FixedFusedObserver<
+    't,
+    Q: Fixed,
+    const N: usize,
+    const M: usize,
+    const P: usize,
+    K: Accumulation = Saturating,
+> {
     tables: &'t FixedFusedTables<Q, N, M, P>,
     x: [Q; N],
     initial: [Q; N],
     r: [Q; P],
+    kernel: PhantomData<K>,
 }
 
-impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
-    FixedFusedObserver<'t, Q, N, M, P>
+constructors!(
+    FixedFusedObserver,
+    FixedFusedTables,
+    /// An observer on `tables` starting from the estimate `x0`; every
+    /// product is added saturating.
+);
+
+impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation>
+    FixedFusedObserver<'t, Q, N, M, P, K>
 {
-    /// An observer on `tables` starting from the estimate `x0`.
-    pub const fn new(tables: &'t FixedFusedTables<Q, N, M, P>, x0: [Q; N]) -> Self {
+    const fn with_kernel(tables: &'t FixedFusedTables<Q, N, M, P>, x0: [Q; N]) -> Self {
         const { assert!(P <= 32, "an observer has at most 32 outputs") };
         Self {
             tables,
             x: x0,
             initial: x0,
             r: [Q::ZERO; P],
+            kernel: PhantomData,
         }
     }
 
@@ -56,9 +77,38 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
         let (present, mut status) = initial_status::<P>(valid);
         status.outcome = Outcome::Corrected;
         status.used = present;
+        let mut acc = [<Q::Acc as Wide>::ZERO; N];
+        K::mul_acc(&t.f, &self.x, &mut acc);
+        K::mul_acc(&t.g, u, &mut acc);
+        if t.gate.is_none() && present == ChannelMask::all(P) {
+            // The common case, apart: the readings reach the multiply-adds
+            // as words loaded in place, which the compiler turns into
+            // `smlal`, rather than through a merge with stand-ins.
+            K::mul_acc(&t.h, y, &mut acc);
+        } else {
+            let y_used = self.stand_in(u, y, present, &mut status, &mut sat);
+            K::mul_acc(&t.h, &y_used, &mut acc);
+        }
+        self.x = sat.store_rows::<K, Q, N>(&acc, &t.exp);
+        status.saturations = sat.0;
+        status
+    }
+
+    /// The readings the step uses: `y` on the present channels, each
+    /// missing one (all of them when the gate rejects) replaced by its
+    /// prediction; forms the innovation when there is a gate.
+    fn stand_in(
+        &mut self,
+        u: &[Q; M],
+        y: &[Q; P],
+        present: ChannelMask,
+        status: &mut Status,
+        sat: &mut Saturations,
+    ) -> [Q; P] {
+        let t = self.tables;
         let mut y_used = *y;
         if let Some(gate) = &t.gate {
-            let predicted = predicted_outputs(&t.output, &self.x, u);
+            let predicted = predicted_outputs::<K, Q, N, M, P>(&t.output, &self.x, u);
             let mut r = [Q::ZERO; P];
             for (j, (rj, (&yj, &pj))) in
                 r.iter_mut().zip(y.iter().zip(predicted.iter())).enumerate()
@@ -90,18 +140,12 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
             let out = &t.output;
             for (j, (yu, &e)) in y_used.iter_mut().zip(out.exp.iter()).enumerate() {
                 if !present.contains(j) {
-                    let acc = row_acc(&out.c, j, &self.x).sat_add(row_acc(&out.d, j, u));
-                    *yu = sat.store(round_row::<Q>(acc, e));
+                    let acc = K::row_acc(&out.c, j, &self.x).sat_add(K::row_acc(&out.d, j, u));
+                    *yu = sat.store(K::round::<Q>(acc, e));
                 }
             }
         }
-        let mut acc = [<Q::Acc as Wide>::ZERO; N];
-        mul_acc(&t.f, &self.x, &mut acc);
-        mul_acc(&t.g, u, &mut acc);
-        mul_acc(&t.h, &y_used, &mut acc);
-        self.x = sat.store_rows(&acc, &t.exp);
-        status.saturations = sat.0;
-        status
+        y_used
     }
 
     /// One step without a measurement: every channel stands in by its

@@ -1,22 +1,28 @@
 //! The innovation of the fixed-point observers.
 
-use super::arith::{Saturations, mul_acc, round_row};
+use super::arith::{Accumulation, Kernels, Saturations};
 use super::format::{Fixed, Wide};
 use super::tables::{FixedGate, FixedOutputMap};
 use crate::{ChannelMask, Outcome, Status};
 
 /// ŷ = C x + D u per output, rounded to the output's LSB but not yet
 /// clamped (P·(N + M) multiply-adds).
-pub(crate) fn predicted_outputs<Q: Fixed, const N: usize, const M: usize, const P: usize>(
+pub(crate) fn predicted_outputs<
+    K: Accumulation,
+    Q: Fixed,
+    const N: usize,
+    const M: usize,
+    const P: usize,
+>(
     out: &FixedOutputMap<Q, N, M, P>,
     x: &[Q; N],
     u: &[Q; M],
 ) -> [Q::Acc; P] {
     let mut acc = [<Q::Acc as Wide>::ZERO; P];
-    mul_acc(&out.c, x, &mut acc);
-    mul_acc(&out.d, u, &mut acc);
+    K::mul_acc(&out.c, x, &mut acc);
+    K::mul_acc(&out.d, u, &mut acc);
     for (a, &e) in acc.iter_mut().zip(out.exp.iter()) {
-        *a = round_row::<Q>(*a, e);
+        *a = K::round::<Q>(*a, e);
     }
     acc
 }
@@ -38,7 +44,13 @@ pub(crate) fn initial_status<const P: usize>(requested: ChannelMask) -> (Channel
 /// The innovation r = y − ŷ on the channels that correct the estimate (zero
 /// on the others), each element rounded once and stored saturating, and the
 /// status saying which channels those are.
-pub(crate) fn innovation<Q: Fixed, const N: usize, const M: usize, const P: usize>(
+pub(crate) fn innovation<
+    K: Accumulation,
+    Q: Fixed,
+    const N: usize,
+    const M: usize,
+    const P: usize,
+>(
     out: &FixedOutputMap<Q, N, M, P>,
     gate: Option<&FixedGate<Q, P>>,
     x: &[Q; N],
@@ -52,7 +64,7 @@ pub(crate) fn innovation<Q: Fixed, const N: usize, const M: usize, const P: usiz
     if present.is_empty() {
         return (r, status);
     }
-    let predicted = predicted_outputs(out, x, u);
+    let predicted = predicted_outputs::<K, Q, N, M, P>(out, x, u);
     for (j, (rj, (&yj, &pj))) in r.iter_mut().zip(y.iter().zip(predicted.iter())).enumerate() {
         if present.contains(j) {
             *rj = sat.store(yj.widen().sat_sub(pj));

@@ -19,21 +19,25 @@
 //! `checks/no-panic` links every fixed-point step under `#[no_panic]`.
 #![deny(clippy::float_arithmetic, clippy::arithmetic_side_effects)]
 
+#[macro_use]
 mod arith;
 mod convert;
 mod current;
 mod format;
 mod fused;
 mod gate;
+mod headroom;
 mod measurement;
 mod predictor;
 mod quantise;
 mod tables;
 
+pub use arith::{Accumulation, Exact, Saturating};
 pub use convert::{ConvertError, TableName, dequantise_real, quantise_real, row_exponent};
 pub use current::FixedCurrentObserver;
 pub use format::{Fixed, Q15, Q31, Wide};
 pub use fused::FixedFusedObserver;
+pub use headroom::{HeadroomError, Proven};
 pub use predictor::FixedPredictorObserver;
 pub use tables::{
     FixedCurrentTables, FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorTables, Scales,

@@ -1,10 +1,12 @@
 //! The fixed-point predictor (Luenberger) observer.
 
-use super::arith::{Saturations, mul_acc};
+use super::arith::{Accumulation, Exact, Kernels, Saturating, Saturations};
 use super::format::{Fixed, Wide};
+use super::headroom::Proven;
 use super::measurement::innovation;
 use super::tables::FixedPredictorTables;
 use crate::{ChannelMask, Status};
+use core::marker::PhantomData;
 
 /// Discrete predictor (Luenberger) observer in Q15 or Q31, integer only.
 ///
@@ -31,22 +33,40 @@ use crate::{ChannelMask, Status};
 /// Integers have no NaN: a dropout is a channel outside the `valid` mask.
 /// Saturated stores are counted in [`Status::saturations`]; no input is ever
 /// refused.
+///
+/// `K` says how products are added: built with [`new`](Self::new) on any
+/// tables, saturating; built with [`proven`](Self::proven) on tables that
+/// carry the proof of headroom ([`Proven`]), plainly, with the same results.
 #[derive(Clone, Debug)]
-pub struct FixedPredictorObserver<'t, Q: Fixed, const N: usize, const M: usize, const P: usize> {
+pub struct FixedPredictorObserver<
+    't,
+    Q: Fixed,
+    const N: usize,
+    const M: usize,
+    const P: usize,
+    K: Accumulation = Saturating,
+> {
+    kernel: PhantomData<K>,
     tables: &'t FixedPredictorTables<Q, N, M, P>,
     x: [Q; N],
     initial: [Q; N],
     r: [Q; P],
 }
 
-impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
-    FixedPredictorObserver<'t, Q, N, M, P>
-{
+constructors!(
+    FixedPredictorObserver,
+    FixedPredictorTables,
     /// An observer on `tables` starting from the estimate `x0`; more than 32
     /// outputs is a compile error.
-    pub const fn new(tables: &'t FixedPredictorTables<Q, N, M, P>, x0: [Q; N]) -> Self {
+);
+
+impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulation>
+    FixedPredictorObserver<'t, Q, N, M, P, K>
+{
+    const fn with_kernel(tables: &'t FixedPredictorTables<Q, N, M, P>, x0: [Q; N]) -> Self {
         const { assert!(P <= 32, "an observer has at most 32 outputs") };
         Self {
+            kernel: PhantomData,
             tables,
             x: x0,
             initial: x0,
@@ -64,14 +84,14 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize>
         let t = self.tables;
         let mut sat = Saturations::default();
         let (r, mut status) =
-            innovation(&t.output, t.gate.as_ref(), &self.x, u, y, valid, &mut sat);
+            innovation::<K, Q, N, M, P>(&t.output, t.gate.as_ref(), &self.x, u, y, valid, &mut sat);
         let mut acc = [<Q::Acc as Wide>::ZERO; N];
-        mul_acc(&t.a, &self.x, &mut acc);
-        mul_acc(&t.b, u, &mut acc);
+        K::mul_acc(&t.a, &self.x, &mut acc);
+        K::mul_acc(&t.b, u, &mut acc);
         if status.corrected() {
-            mul_acc(&t.l, &r, &mut acc);
+            K::mul_acc(&t.l, &r, &mut acc);
         }
-        self.x = sat.store_rows(&acc, &t.exp);
+        self.x = sat.store_rows::<K, Q, N>(&acc, &t.exp);
         self.r = r;
         status.saturations = sat.0;
         status
