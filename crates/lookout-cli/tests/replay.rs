@@ -261,3 +261,24 @@ fn missing_readings_replay_and_stop_the_fit() {
             .contains("1 readings missing")
     );
 }
+
+/// `--plot` writes an SVG of the innovations and their autocorrelation
+/// (needs a system TrueType font, as simulate's plot).
+#[test]
+fn plot_is_written() {
+    let path = scratch("replay.svg");
+    let out = lookout(&[
+        "replay",
+        HEATER,
+        HEATER_LOG,
+        "--plot",
+        path.to_str().unwrap(),
+    ]);
+    assert!(
+        out.status.success(),
+        "{}",
+        String::from_utf8_lossy(&out.stderr)
+    );
+    let svg = std::fs::read_to_string(&path).unwrap();
+    assert!(svg.starts_with("<svg") && svg.contains("autocorrelation of temperature"));
+}

@@ -162,6 +162,7 @@ fn max_deviation(n: usize, run: &FormatRun, reference: &FormatRun) -> Vec<f64> {
 /// Replays `traj` through `design`.
 pub fn replay(design: &Design, traj: Trajectory, opts: &ReplayOptions) -> Result<Replay, CliError> {
     runtime::check_sizes(design)?;
+    check_memory(design, traj.steps)?;
     let x0 = vec![0.0; design.n()];
     let (runs, skipped) = run_formats(design, &traj, &x0)?;
     let reference = runs
@@ -212,6 +213,24 @@ pub fn replay(design: &Design, traj: Trajectory, opts: &ReplayOptions) -> Result
         predicted,
         noise_map: map,
     })
+}
+
+/// Refuses a log whose series (every format's estimates and innovations)
+/// would not fit [`crate::sim::MAX_SERIES_BYTES`].
+fn check_memory(design: &Design, steps: usize) -> Result<(), CliError> {
+    let formats = crate::sim::formats(design).len() as u64;
+    let (n, m, p) = (design.n() as u64, design.m() as u64, design.p() as u64);
+    let per_step = 8 * (formats * (n + p) + m + p) + p + formats;
+    let bytes = (steps as u64 + 1).saturating_mul(per_step);
+    if bytes > crate::sim::MAX_SERIES_BYTES {
+        return Err(CliError::BadInput(format!(
+            "the log has {steps} samples: replaying them would need about {:.1} GiB (at most {} GiB); this model allows at most {} samples",
+            bytes as f64 / (1u64 << 30) as f64,
+            crate::sim::MAX_SERIES_BYTES >> 30,
+            crate::sim::MAX_SERIES_BYTES / per_step.max(1) - 1
+        )));
+    }
+    Ok(())
 }
 
 /// The noise fit of one format's innovations, or why it cannot be made.
