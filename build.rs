@@ -22,6 +22,11 @@ fn main() {
             "conveyor_kalman_f64.rs",
         ),
         (
+            "tests/models/conveyor_kalman_q31.toml",
+            lookout_design::Scalar::F64,
+            "conveyor_kalman_q31.rs",
+        ),
+        (
             "examples/conveyor_load.toml",
             lookout_design::Scalar::F64,
             "conveyor_load_f64.rs",

@@ -17,6 +17,12 @@ pub mod conveyor_kalman_f64 {
     include!(concat!(env!("OUT_DIR"), "/conveyor_kalman_f64.rs"));
 }
 
+/// Tables of `tests/models/conveyor_kalman_q31.toml` (the Kalman demo with
+/// Q31 tables and their gate) in `f64` and Q31.
+pub mod kalman_q31 {
+    include!(concat!(env!("OUT_DIR"), "/conveyor_kalman_q31.rs"));
+}
+
 /// Tables of `examples/conveyor_load.toml` (the conveyor with its load
 /// torque as a disturbance state) in `f64`.
 pub mod conveyor_load_f64 {

@@ -36,6 +36,11 @@ fn gate<const P: usize>() -> Gate<f64, P> {
         limit: 1.0e3,
         channel_inv_variance: [100.0; P],
         channel_limit: 1.0e3,
+        recovery: lookout::Recovery {
+            limits: [[1.0e3; 2]; lookout::GATE_STAGES],
+            stages: 4,
+            per_miss: 2,
+        },
     }
 }
 
@@ -53,6 +58,11 @@ fn cast_gate<T: Real, const P: usize>(g: &Gate<f64, P>) -> Gate<T, P> {
         limit: t(g.limit),
         channel_inv_variance: g.channel_inv_variance.map(t),
         channel_limit: t(g.channel_limit),
+        recovery: lookout::Recovery {
+            limits: g.recovery.limits.map(|p| p.map(t)),
+            stages: g.recovery.stages,
+            per_miss: g.recovery.per_miss,
+        },
     }
 }
 

@@ -58,6 +58,7 @@ macro_rules! checks {
                     limit: seed,
                     channel_inv_variance: [seed; P],
                     channel_limit: seed,
+                    recovery: lookout::Recovery { limits: [[seed; 2]; lookout::GATE_STAGES], stages: black_box(3), per_miss: black_box(2) },
                 }));
                 let pt = black_box(PredictorTables { plant, l: Matrix::from_rows([[seed; P]; N]), gate });
                 let ct = black_box(CurrentTables { plant, k: Matrix::from_rows([[seed; P]; N]), gate });
@@ -155,6 +156,7 @@ macro_rules! fixed_checks {
                     z_exp: exp,
                     limit: wide,
                     channel_limit: wide,
+                    recovery: lookout::Recovery { limits: [[wide; 2]; lookout::GATE_STAGES], stages: black_box(3), per_miss: black_box(2) },
                 }));
                 let (a, b, l) = (Matrix::from_rows([[seed; N]; N]), Matrix::from_rows([[seed; M]; N]), Matrix::from_rows([[seed; P]; N]));
                 let pt = black_box(FixedPredictorTables { scales, a, b, l, exp: [exp; N], output, gate });

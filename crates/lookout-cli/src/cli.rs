@@ -128,8 +128,8 @@ pub struct SimArgs {
     /// Size of an outlier in the output's unit (random sign).
     #[arg(long, default_value_t = 1.0, allow_negative_numbers = true)]
     pub outlier_size: f64,
-    /// Settling band per estimated state (state units); default 2 % of the
-    /// f64 observer's largest error of each state.
+    /// Settling band per estimated state (state units); default from the
+    /// design's statistics (see docs/simulate.md).
     #[arg(long, value_name = "T[,T..]")]
     pub tolerance: Option<String>,
     /// Print one JSON object instead of the readable report.
@@ -148,6 +148,10 @@ pub struct SimArgs {
     /// Monte Carlo over N random plant perturbations of size --mismatch.
     #[arg(long, value_name = "N", allow_negative_numbers = true)]
     pub sweep: Option<i64>,
+    /// Number formats to run (f64,f32,q31,q15); default f64, f32 and the
+    /// `[fixed_point]` format the model was designed for.
+    #[arg(long, value_name = "F[,F..]")]
+    pub formats: Option<String>,
 }
 
 /// `--scalar` values.

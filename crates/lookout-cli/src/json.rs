@@ -42,6 +42,17 @@ pub fn design(d: &Design) -> String {
         "m": d.m(),
         "p": d.p(),
         "state_names": d.state_names(),
+        "state_units": d.model.state_units(),
+        "input_names": signal_names(d.model.plant.input_names.as_deref(), d.m(), "u"),
+        "input_units": units(d.model.plant.input_units.as_deref(), d.m()),
+        "output_names": signal_names(d.model.plant.output_names.as_deref(), d.p(), "y"),
+        "output_units": units(d.model.plant.output_units.as_deref(), d.p()),
+        "gate": d.gate.as_ref().map_or(Value::Null, |g| json!({
+            "limit": g.limit,
+            "channel_limit": g.channel_limit,
+            "widening": g.widening,
+            "corrections_per_stage": g.per_miss,
+        })),
         "ad": matrix(&d.ad),
         "bd": matrix(&d.bd),
         "cd": matrix(&d.cd),
@@ -76,6 +87,25 @@ pub fn design(d: &Design) -> String {
         "warnings": d.warnings.iter().map(ToString::to_string).collect::<Vec<_>>(),
     });
     format!("{value}\n")
+}
+
+/// The given names, or `prefix` and the index.
+fn signal_names(given: Option<&[String]>, count: usize, prefix: &str) -> Vec<String> {
+    (0..count)
+        .map(|i| {
+            given
+                .and_then(|g| g.get(i))
+                .cloned()
+                .unwrap_or_else(|| format!("{prefix}{i}"))
+        })
+        .collect()
+}
+
+/// The given units, "" where none.
+fn units(given: Option<&[String]>, count: usize) -> Vec<String> {
+    (0..count)
+        .map(|i| given.and_then(|g| g.get(i)).cloned().unwrap_or_default())
+        .collect()
 }
 
 fn fixed_point(fx: &lookout_design::fixed_point::FixedDesign) -> Value {

@@ -48,7 +48,7 @@ fn names(given: Option<&[String]>, units: Option<&[String]>, count: usize, prefi
                 .and_then(|g| g.get(i))
                 .cloned()
                 .unwrap_or_else(|| format!("{prefix}{i}"));
-            match units.and_then(|u| u.get(i)) {
+            match units.and_then(|u| u.get(i)).filter(|u| !u.is_empty()) {
                 Some(unit) => format!("{name} [{unit}]"),
                 None => name,
             }
@@ -94,7 +94,7 @@ pub fn design(d: &Design) -> String {
         "states          {}",
         names(
             Some(&d.state_names()),
-            plant.state_units.as_deref(),
+            Some(&d.model.state_units()),
             d.n(),
             "x"
         )
@@ -283,7 +283,7 @@ fn fixed_point(s: &mut String, d: &Design, fx: &lookout_design::fixed_point::Fix
     let names = d.state_names();
     let _ = writeln!(
         s,
-        "fixed point     {} (value v at scale exponent e stored as round(v · 2^(F − e)))",
+        "fixed point     {} (value v at scale exponent e stored as round(v · 2^(b − e)), b the fraction bits)",
         format_name(fx.format)
     );
     let p = &fx.proof;
@@ -408,13 +408,13 @@ fn fixed_point(s: &mut String, d: &Design, fx: &lookout_design::fixed_point::Fix
 fn accuracy_table(s: &mut String, names: &[String], a: &lookout_design::fixed_point::Accuracy) {
     let _ = writeln!(
         s,
-        "  predicted deviation from the exact observer, per state (rounded tables + per-step rounding; signals inside their scales):"
+        "  proven bound on the deviation from the exact observer, per state (rounded tables + worst-case per-step rounding; signals inside their scales):"
     );
     let mut head = format!("  {:<10}{:<7}{:>13}", "form", "format", "error radius");
     for name in names {
         let _ = write!(head, "{name:>12}");
     }
-    let _ = writeln!(s, "{head}  usable");
+    let _ = writeln!(s, "{head}  within limit");
     let mut limit = format!(
         "  {:<30}",
         if a.limit_declared {
@@ -438,7 +438,13 @@ fn accuracy_table(s: &mut String, names: &[String], a: &lookout_design::fixed_po
                 for v in &d.total {
                     let _ = write!(row, "{v:>12.3e}");
                 }
-                let _ = writeln!(s, "{row}  {}", if a.meets(d) { "yes" } else { "no" });
+                // A bound above the limit proves nothing either way: say so rather
+                // than "no" (the worst case adds every rounding up).
+                let _ = writeln!(
+                    s,
+                    "{row}  {}",
+                    if a.meets(d) { "yes" } else { "not proven" }
+                );
             }
         }
     }

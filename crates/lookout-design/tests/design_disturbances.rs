@@ -412,3 +412,21 @@ fn documented_example_parses() {
         ["angle", "speed", "load_torque", "encoder_offset"]
     );
 }
+
+/// Issue 13: disturbance states carry units for reports: the `unit` key,
+/// else the unit of the input a disturbance adds to (or of the biased
+/// output), a ramp's rate per second, and "" where nothing says.
+#[test]
+fn disturbance_states_carry_units() {
+    let text = lag(
+        "state_units = [\"K\"]\ninput_units = [\"W\"]\n\n\
+         [[disturbances.input]]\nname = \"draught\"\ninput = 0\nshape = \"ramp\"\n\n\
+         [[disturbances.input]]\nname = \"sun\"\ncolumn = [0.1]\nunit = \"W/m2\"\n",
+        "poles = [-5.0, -4.0, -3.0, -6.0]",
+    );
+    let model = Model::from_toml_str(&text, "heater.toml").unwrap();
+    assert_eq!(model.state_units(), ["K", "W", "W/s", "W/m2"]);
+    let no_unit = text.replace("unit = \"W/m2\"\n", "");
+    let model = Model::from_toml_str(&no_unit, "heater.toml").unwrap();
+    assert_eq!(model.state_units(), ["K", "W", "W/s", ""]);
+}

@@ -1,5 +1,6 @@
 //! The current-form (filter-form) observer, e.g. a steady-state Kalman filter.
 
+use crate::gate::misses_after;
 use crate::measurement::{all_finite, all_used, innovation, plain_innovation, plain_step};
 use crate::{ChannelMask, CurrentTables, Outcome, Real, Status};
 
@@ -37,6 +38,8 @@ pub struct CurrentObserver<'t, T, const N: usize, const M: usize, const P: usize
     /// The status of a `correct` not yet followed by `predict`: `Some` means
     /// `filtered` belongs to the current sample.
     pending: Option<Status>,
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserver<'t, T, N, M, P> {
@@ -50,6 +53,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
             initial: x0,
             r: [T::ZERO; P],
             pending: None,
+            misses: 0,
         }
     }
 
@@ -68,20 +72,19 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
     }
 
     /// Measurement update: x̂\[k|k\] = x̂\[k|k−1\] + K r\[k\].
+    ///
+    /// Each call counts as one sample for the gate's counter of misses
+    /// (see [`Recovery`](crate::Recovery)).
     pub fn correct(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
         let plant = &self.tables.plant;
-        let gate = self.tables.gate.as_ref();
-        let x = &self.predicted;
-        let (r, status) = if plain_step(gate.is_some(), u, y, valid) {
-            // The fast path: one finiteness test, every channel used.
-            (
-                plain_innovation(&plant.c, &plant.d, x, u, y),
-                all_used::<P>(),
-            )
-        } else if all_finite(u) {
-            innovation(&plant.c, &plant.d, gate, x, u, y, valid)
-        } else {
-            return Status::rejected_input(P);
+        let (c, d, x) = (&plant.c, &plant.d, &self.predicted);
+        let (r, status) = match &self.tables.gate {
+            None if plain_step(false, u, y, valid) => {
+                (plain_innovation(c, d, x, u, y), all_used::<P>())
+            }
+            _ if !all_finite(u) => return Status::rejected_input(P),
+            None => innovation(c, d, None, x, u, y, valid),
+            Some(g) => innovation(c, d, Some((g, &mut self.misses)), x, u, y, valid),
         };
         self.filtered = self.predicted;
         if status.corrected() {
@@ -106,6 +109,11 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
             None => {
                 self.filtered = self.predicted;
                 self.r = [T::ZERO; P];
+                self.misses = misses_after(
+                    self.tables.gate.as_ref().map(|g| &g.recovery),
+                    self.misses,
+                    Outcome::PredictedOnly,
+                );
                 Status::predicted_only(P)
             }
         };
@@ -142,6 +150,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> CurrentObserve
         self.predicted = x;
         self.filtered = x;
         self.pending = None;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the

@@ -1,5 +1,6 @@
 //! The fused observer: one matrix–vector pass per table.
 
+use crate::gate::Decision;
 use crate::measurement::{all_finite, plain_step, usable};
 use crate::{ChannelMask, FusedTables, Outcome, Real, Status};
 
@@ -26,6 +27,8 @@ pub struct FusedObserver<'t, T, const N: usize, const M: usize, const P: usize> 
     x: [T; N],
     initial: [T; N],
     r: [T; P],
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<'t, T, N, M, P> {
@@ -37,6 +40,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
             x: x0,
             initial: x0,
             r: [T::ZERO; P],
+            misses: 0,
         }
     }
 
@@ -111,12 +115,14 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
                     *rj = yj - pj;
                 }
             }
-            if present.is_empty() || !gate.accepts(&r, present) {
-                status.outcome = if present.is_empty() {
-                    Outcome::PredictedOnly
-                } else {
-                    Outcome::Gated
-                };
+            let decision = if present.is_empty() {
+                None
+            } else {
+                Some(gate.judge(&r, present, self.misses))
+            };
+            status.outcome = decision.map_or(Outcome::PredictedOnly, Decision::outcome);
+            self.misses = gate.recovery.count_after(self.misses, status.outcome);
+            if !status.corrected() {
                 status.used = ChannelMask::NONE;
                 y_used = predicted;
                 r = [T::ZERO; P];
@@ -162,6 +168,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
     /// Replaces the estimate.
     pub fn set_state(&mut self, x: [T; N]) {
         self.x = x;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the
@@ -169,6 +176,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize> FusedObserver<
     pub fn reset(&mut self) {
         self.x = self.initial;
         self.r = [T::ZERO; P];
+        self.misses = 0;
     }
 
     /// The tables the observer runs on.

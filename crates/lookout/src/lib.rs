@@ -128,7 +128,7 @@ pub use fixed::{
     dequantise_real, quantise_real, row_exponent,
 };
 pub use fused::FusedObserver;
-pub use gate::Gate;
+pub use gate::{GATE_STAGES, Gate, Recovery};
 pub use matrix::Matrix;
 pub use predictor::PredictorObserver;
 pub use real::Real;

@@ -72,12 +72,35 @@ pub(crate) fn usable<T: Real, const P: usize>(y: &[T; P], requested: ChannelMask
 /// The innovation r = y − C x − D u on the channels that correct the estimate
 /// (zero on the others), and the status saying which those are.
 ///
-/// Costs P·(N + M) multiply-adds, plus the gate's when there is one.
+/// Costs P·(N + M) multiply-adds, plus the gate's when there is one;
+/// `gate` comes with the observer's counter of misses, which it updates
+/// (see [`Recovery`](crate::Recovery)); without a gate there is no counter
+/// to keep.
 #[inline(always)]
 pub(crate) fn innovation<T: Real, const N: usize, const M: usize, const P: usize>(
     c: &Matrix<T, P, N>,
     d: &Matrix<T, P, M>,
-    gate: Option<&Gate<T, P>>,
+    gate: Option<(&Gate<T, P>, &mut u16)>,
+    x: &[T; N],
+    u: &[T; M],
+    y: &[T; P],
+    requested: ChannelMask,
+) -> ([T; P], Status) {
+    match gate {
+        None => tested(c, d, None, x, u, y, requested),
+        Some((g, count)) => {
+            let out = tested(c, d, Some((g, *count)), x, u, y, requested);
+            *count = g.recovery.count_after(*count, out.1.outcome);
+            out
+        }
+    }
+}
+
+#[inline(always)]
+fn tested<T: Real, const N: usize, const M: usize, const P: usize>(
+    c: &Matrix<T, P, N>,
+    d: &Matrix<T, P, M>,
+    gate: Option<(&Gate<T, P>, u16)>,
     x: &[T; N],
     u: &[T; M],
     y: &[T; P],
@@ -101,11 +124,13 @@ pub(crate) fn innovation<T: Real, const N: usize, const M: usize, const P: usize
             *rj = T::ZERO;
         }
     }
-    if gate.is_some_and(|g| !g.accepts(&r, present)) {
-        status.outcome = Outcome::Gated;
-        return ([T::ZERO; P], status);
-    }
     status.outcome = Outcome::Corrected;
+    if let Some((g, misses)) = gate {
+        status.outcome = g.judge(&r, present, misses).outcome();
+        if status.outcome == Outcome::Gated {
+            return ([T::ZERO; P], status);
+        }
+    }
     status.used = present;
     (r, status)
 }

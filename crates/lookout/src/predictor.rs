@@ -31,6 +31,8 @@ pub struct PredictorObserver<'t, T, const N: usize, const M: usize, const P: usi
     x: [T; N],
     initial: [T; N],
     r: [T; P],
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
@@ -45,6 +47,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
             x: x0,
             initial: x0,
             r: [T::ZERO; P],
+            misses: 0,
         }
     }
 
@@ -57,17 +60,16 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
     /// finite ones).
     pub fn step_masked(&mut self, u: &[T; M], y: &[T; P], valid: ChannelMask) -> Status {
         let plant = &self.tables.plant;
-        let gate = self.tables.gate.as_ref();
-        let (r, status) = if plain_step(gate.is_some(), u, y, valid) {
-            // The fast path: one finiteness test, every channel used.
-            (
-                plain_innovation(&plant.c, &plant.d, &self.x, u, y),
-                all_used::<P>(),
-            )
-        } else if all_finite(u) {
-            innovation(&plant.c, &plant.d, gate, &self.x, u, y, valid)
-        } else {
-            return Status::rejected_input(P);
+        let (c, d, x) = (&plant.c, &plant.d, &self.x);
+        // The ungated fast path tests finiteness once; the gated calls carry
+        // the counter of misses, the ungated one is specialised without it.
+        let (r, status) = match &self.tables.gate {
+            None if plain_step(false, u, y, valid) => {
+                (plain_innovation(c, d, x, u, y), all_used::<P>())
+            }
+            _ if !all_finite(u) => return Status::rejected_input(P),
+            None => innovation(c, d, None, x, u, y, valid),
+            Some(g) => innovation(c, d, Some((g, &mut self.misses)), x, u, y, valid),
         };
         let mut next = plant.a.mul(&self.x);
         plant.b.mul_add_to(u, &mut next);
@@ -97,6 +99,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
     /// Replaces the estimate.
     pub fn set_state(&mut self, x: [T; N]) {
         self.x = x;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the
@@ -104,6 +107,7 @@ impl<'t, T: Real, const N: usize, const M: usize, const P: usize>
     pub fn reset(&mut self) {
         self.x = self.initial;
         self.r = [T::ZERO; P];
+        self.misses = 0;
     }
 
     /// The tables the observer runs on.

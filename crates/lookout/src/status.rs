@@ -85,6 +85,11 @@ pub enum Outcome {
     /// The measurement corrected the estimate through the channels in
     /// [`Status::used`].
     Corrected,
+    /// The gate re-acquired: after more consecutive misses than its recovery
+    /// table covers (see [`Recovery`](crate::Recovery)), the measurement was
+    /// applied untested through the channels in [`Status::used`].
+    // Next to `Corrected`, so `corrected()` is one comparison.
+    Reacquired,
     /// No channel was usable (none given, all masked or non-finite): the
     /// estimate was only predicted, x̂ ← A x̂ + B u.
     PredictedOnly,
@@ -128,8 +133,9 @@ impl Status {
         }
     }
 
-    /// Whether the estimate was corrected by a measurement.
+    /// Whether the estimate was corrected by a measurement (tested by the
+    /// gate or re-acquired).
     pub const fn corrected(&self) -> bool {
-        matches!(self.outcome, Outcome::Corrected)
+        matches!(self.outcome, Outcome::Corrected | Outcome::Reacquired)
     }
 }

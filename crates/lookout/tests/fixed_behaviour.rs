@@ -75,6 +75,7 @@ fn case(rng: &mut Xorshift) -> Case {
             limit: chi_square_limit(2, 0.9).unwrap(),
             channel_inv_variance: channel,
             channel_limit: chi_square_limit(1, 0.9).unwrap(),
+            recovery: lookout::Recovery::none(0.0),
         },
         s,
     }

@@ -90,6 +90,7 @@ fn conversion_errors_name_table_index_and_condition() {
         limit: 4.0,
         channel_inv_variance: [1.0],
         channel_limit: 4.0,
+        recovery: lookout::Recovery::none(0.0),
     };
     let gated = PredictorTables {
         plant: plant(0.5),

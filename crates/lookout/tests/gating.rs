@@ -2,7 +2,7 @@
 
 use lookout::{
     ChannelMask, FusedObserver, FusedTables, Gate, Matrix, Outcome, Plant, PredictorObserver,
-    PredictorTables, chi_square_limit,
+    PredictorTables, Recovery, chi_square_limit,
 };
 
 /// Upper critical values of the chi-square distribution, as printed in the
@@ -88,6 +88,7 @@ const GATE: Gate<f64, 2> = Gate {
     limit: 5.991, // χ²₂ at 0.95 (table above)
     channel_inv_variance: [0.25, 1.0],
     channel_limit: 3.841, // χ²₁ at 0.95
+    recovery: Recovery::none(0.0),
 };
 const PLANT: Plant<f64, 1, 1, 2> = Plant {
     a: Matrix::from_rows([[0.9]]),

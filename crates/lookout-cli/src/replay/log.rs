@@ -136,6 +136,8 @@ pub fn read(path: &Path, design: &Design, ignore_others: bool) -> Result<Traject
         valid: Vec::new(),
         dropped: 0,
         outliers: 0,
+        // Unknown in a log: no reading is marked.
+        outlier: Vec::new(),
     };
     let mut last_time: Option<(u64, f64)> = None;
     let mut pending_blank: Option<u64> = None;
@@ -179,6 +181,7 @@ pub fn read(path: &Path, design: &Design, ignore_others: bool) -> Result<Traject
                 0.0
             });
             tr.valid.push(present);
+            tr.outlier.push(false);
             tr.dropped += usize::from(!present);
         }
         tr.steps += 1;

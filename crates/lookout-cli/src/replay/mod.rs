@@ -164,7 +164,7 @@ pub fn replay(design: &Design, traj: Trajectory, opts: &ReplayOptions) -> Result
     runtime::check_sizes(design)?;
     check_memory(design, traj.steps)?;
     let x0 = vec![0.0; design.n()];
-    let (runs, skipped) = run_formats(design, &traj, &x0)?;
+    let (runs, skipped) = run_formats(design, &crate::sim::formats(design), &traj, &x0)?;
     let reference = runs
         .first()
         .cloned()

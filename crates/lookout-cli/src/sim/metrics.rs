@@ -1,21 +1,12 @@
-//! Figures of merit of one format's run against the truth and the f64
-//! observer.
+//! Figures of merit of one format's run against the truth, the f64 observer
+//! and the design's statistics ([`Reference`]), and its [`Verdict`].
 
 use super::plant::Trajectory;
-use super::runtime::FormatRun;
-
-/// Settling band used when none is given: 2 % of the largest error of each
-/// state in the f64 run (the common practice 2 % settling band); 1e-9 in
-/// the state's unit for a state whose error is exactly zero throughout.
-pub fn default_tolerance(traj: &Trajectory, reference: &FormatRun) -> Vec<f64> {
-    let n = traj.n;
-    (0..n)
-        .map(|i| {
-            let peak = errors(traj, reference, i).fold(0.0, |m: f64, e| m.max(e.abs()));
-            if peak > 0.0 { 0.02 * peak } else { 1e-9 }
-        })
-        .collect()
-}
+use super::reference::{ROUNDING_MULTIPLE, Reference, test_confidence};
+use super::runtime::{Format, FormatRun};
+use super::verdict::{Interval, Verdict, mean_within, normal_quantile};
+use lookout_design::Design;
+use nalgebra::{DMatrix, DVector};
 
 /// e_i[k] = x_i[k] − x̂_i[k] for k = 0..=steps.
 fn errors<'a>(
@@ -48,25 +39,290 @@ pub struct Metrics {
     /// quarter of the run no larger than over the third quarter (plus the
     /// band), an empirical test.
     pub stable: bool,
-    /// Settled, and stable.
+    /// The verdict is [`Verdict::Converged`].
     pub converged: bool,
+    /// This format's band per state.
+    pub band: Vec<f64>,
+    /// Predicted deviation by rounding per state (see [`rounding`]).
+    pub rounding: Vec<f64>,
+    /// Per state: with noise the mean error over the settled samples;
+    /// without, the peak |error| over the last eighth of the run.
+    pub mean_error: Vec<f64>,
+    /// The limit on |mean_error| per state.
+    pub mean_limit: Vec<f64>,
+    /// Time-averaged NEES and its interval (with noise).
+    pub nees: Option<Interval>,
+    /// Time-averaged NIS and its interval (with noise).
+    pub nis: Option<Interval>,
+    /// Why a consistency test was not made.
+    pub untested: Option<String>,
+    /// The verdict.
+    pub verdict: Verdict,
 }
 
-/// Computes the metrics of `run` with settling bands `tolerance`.
-pub fn measure(
+/// Unit roundoff of a float format, or the Q format's fraction bits.
+fn format_step(format: Format) -> Result<f64, i32> {
+    match format {
+        Format::F64 => Ok(f64::EPSILON / 2.0),
+        Format::F32 => Ok(f64::from(f32::EPSILON) / 2.0),
+        Format::Q31 => Err(31),
+        Format::Q15 => Err(15),
+    }
+}
+
+/// Predicted deviation of `run` from exact arithmetic, per state: Γ δ with
+/// Γ = Σ_k |Fᵏ| and δ the per-step error, for floats u·(n + m + p + 1)
+/// times the peak |x̂_i| (Higham's γ bound for one dot product, *Accuracy
+/// and Stability of Numerical Algorithms*, 2002, §3.1, with the peak
+/// standing in for Σ|a||x|: a stated estimate, not a proof), for Q formats
+/// 2 LSB of the state (two rounded stores per step).
+pub fn rounding(design: &Design, run: &FormatRun, reference: &Reference) -> Vec<f64> {
+    let n = design.n();
+    let delta: Vec<f64> = match format_step(run.format) {
+        Ok(u) => {
+            let terms = (design.n() + design.m() + design.p() + 1) as f64;
+            (0..n)
+                .map(|i| {
+                    let peak = run
+                        .estimate
+                        .iter()
+                        .skip(i)
+                        .step_by(n)
+                        .fold(0.0, |m: f64, v| m.max(v.abs()));
+                    u * terms * peak
+                })
+                .collect()
+        }
+        Err(frac) => {
+            let exps = design
+                .fixed_point
+                .as_ref()
+                .map(|f| f.state_exponents.clone())
+                .unwrap_or_default();
+            (0..n)
+                .map(|i| {
+                    let e = exps.get(i).copied().map_or(0, i32::from);
+                    2.0 * 2f64.powi(e - frac)
+                })
+                .collect()
+        }
+    };
+    (&reference.rounding_gain * DVector::from_vec(delta))
+        .iter()
+        .copied()
+        .collect()
+}
+
+/// The band of a format: k·σ plus a multiple of its rounding deviation
+/// with noise; without, the multiple of the rounding deviation plus the f64
+/// run's residual (its largest error over the last quarter).
+pub fn band(reference: &Reference, rounding: &[f64], residual: &[f64]) -> Vec<f64> {
+    rounding
+        .iter()
+        .zip(&reference.sigma)
+        .zip(residual)
+        .map(|((&r, &s), &res)| {
+            let b = if reference.noisy {
+                reference.k * s + ROUNDING_MULTIPLE * r
+            } else {
+                ROUNDING_MULTIPLE * r + res
+            };
+            b.max(f64::MIN_POSITIVE)
+        })
+        .collect()
+}
+
+/// The f64 run's largest |error| per state over the last quarter.
+pub fn residual(traj: &Trajectory, reference_run: &FormatRun) -> Vec<f64> {
+    let len = traj.steps + 1;
+    (0..traj.n)
+        .map(|i| {
+            errors(traj, reference_run, i)
+                .skip(len - len / 4)
+                .fold(0.0, |m: f64, v| m.max(v.abs()))
+        })
+        .collect()
+}
+
+/// Averages eᵀ M⁻¹ e over the sample indices `at` (`None` if M is not
+/// positive definite or there are no samples).
+fn normalised(m: &DMatrix<f64>, samples: &[DVector<f64>], confidence: f64) -> Option<Interval> {
+    let chol = m.clone().cholesky()?;
+    let total: f64 = samples.iter().map(|e| e.dot(&chol.solve(e))).sum();
+    Interval::chi_square(
+        total / samples.len() as f64,
+        samples.len(),
+        m.nrows(),
+        confidence,
+    )
+}
+
+/// The settled samples used by the statistics: every `spacing`-th step
+/// from `start` on.
+fn settled(start: usize, len: usize, spacing: usize) -> Vec<usize> {
+    (start..len).step_by(spacing.max(1)).collect()
+}
+
+/// The NEES and NIS averages of a settled run (see [`super::verdict`]).
+fn consistency(
+    design: &Design,
     traj: &Trajectory,
     run: &FormatRun,
-    reference: &FormatRun,
-    tolerance: &[f64],
+    reference: &Reference,
+    start: usize,
+) -> (Option<Interval>, Option<Interval>, Option<String>) {
+    if !reference.noisy {
+        return (None, None, Some("no simulated noise".into()));
+    }
+    if traj.dropped > 0 || traj.outliers > 0 {
+        return (
+            None,
+            None,
+            Some("dropouts and outliers change the error covariance the tests assume".into()),
+        );
+    }
+    let (n, m, p) = (traj.n, traj.m, traj.p);
+    let err = |k: usize| {
+        DVector::from_iterator(
+            n,
+            (0..n).map(|i| traj.truth[k * n + i] - run.estimate[k * n + i]),
+        )
+    };
+    let len = traj.steps + 1;
+    let e: Vec<DVector<f64>> = settled(start, len, reference.spacing)
+        .into_iter()
+        .map(err)
+        .collect();
+    let confidence = test_confidence(n);
+    let nees = normalised(&reference.cov, &e, confidence);
+    let nis_spacing = if reference.white_innovation {
+        1
+    } else {
+        reference.spacing
+    };
+    let r: Vec<DVector<f64>> = settled(start, traj.steps, nis_spacing)
+        .into_iter()
+        .map(|k| {
+            let x = DVector::from_iterator(n, run.estimate[k * n..(k + 1) * n].iter().copied());
+            let u = DVector::from_iterator(m, traj.u[k * m..(k + 1) * m].iter().copied());
+            let y = DVector::from_iterator(p, traj.y[k * p..(k + 1) * p].iter().copied());
+            y - &design.cd * x - &design.dd * u
+        })
+        .collect();
+    let nis = normalised(&reference.innovation_cov, &r, confidence);
+    let note = nees
+        .is_none()
+        .then(|| "the design's error covariance is singular: no NEES".to_string());
+    (nees, nis, note)
+}
+
+/// Per state: the mean error over the settled, nearly independent
+/// samples, its limit z·σ/√K + the rounding term (z the two-sided normal
+/// quantile at [`test_confidence`]), and the first
+/// state beyond it.
+fn bias_with_noise(
+    traj: &Trajectory,
+    run: &FormatRun,
+    reference: &Reference,
+    rounding: &[f64],
+    start: usize,
+) -> (Vec<f64>, Vec<f64>, Option<usize>) {
+    let n = traj.n;
+    let z = normal_quantile(test_confidence(n));
+    let samples = settled(start, traj.steps + 1, reference.spacing);
+    let mut out = (Vec::with_capacity(n), Vec::with_capacity(n), None);
+    for i in 0..n {
+        let e: Vec<f64> = samples
+            .iter()
+            .map(|&k| traj.truth[k * n + i] - run.estimate[k * n + i])
+            .collect();
+        let sigma = reference.sigma.get(i).copied().unwrap_or(0.0);
+        let spread = z * sigma / (e.len().max(1) as f64).sqrt();
+        let limit = spread + ROUNDING_MULTIPLE * rounding.get(i).copied().unwrap_or(0.0);
+        let (mean, ok) = mean_within(&e, limit.max(f64::MIN_POSITIVE));
+        if !ok && out.2.is_none() {
+            out.2 = Some(i);
+        }
+        out.0.push(mean);
+        out.1.push(limit);
+    }
+    out
+}
+
+/// Without noise the error of an exact model obeys e[k + L] = Fᴸ e[k] up
+/// to rounding, so with D = diag(d) any positive scaling,
+/// max over the last eighth of |e_i| / d_i ≤ ‖D⁻¹ Fᴸ D‖∞ · max over the
+/// eighth before of max_j |e_j| / d_j (L the eighth's length). With d_j the
+/// peak |e_j| over the earlier eighth (at least the rounding term) the
+/// allowed peak of state i is d_i ‖D⁻¹ Fᴸ D‖∞ plus the rounding term; an
+/// error beyond it does not decay as the design says: a model mismatch or
+/// an unmodelled input. Returns per state the later peak and its limit.
+fn bias_without_noise(
+    traj: &Trajectory,
+    run: &FormatRun,
+    reference: &Reference,
+    rounding: &[f64],
+) -> (Vec<f64>, Vec<f64>, Option<usize>) {
+    let n = traj.n;
+    let len = traj.steps + 1;
+    let window = (len / 8).max(1);
+    let peak = |e: &[f64], from: usize| {
+        e.get(from..(from + window).min(len))
+            .unwrap_or(&[])
+            .iter()
+            .fold(0.0, |m: f64, v| m.max(v.abs()))
+    };
+    let (mut before, mut after) = (Vec::with_capacity(n), Vec::with_capacity(n));
+    for i in 0..n {
+        let e: Vec<f64> = errors(traj, run, i).collect();
+        before.push(peak(&e, len.saturating_sub(2 * window)));
+        after.push(peak(&e, len - window));
+    }
+    let round = |i: usize| ROUNDING_MULTIPLE * rounding.get(i).copied().unwrap_or(0.0);
+    let d: Vec<f64> = (0..n)
+        .map(|i| before[i].max(round(i)).max(f64::MIN_POSITIVE))
+        .collect();
+    let mut power = DMatrix::<f64>::identity(n, n);
+    for _ in 0..window {
+        power = &reference.f * power;
+    }
+    let gain = (0..n)
+        .map(|i| {
+            (0..n)
+                .map(|j| power[(i, j)].abs() * d[j] / d[i])
+                .sum::<f64>()
+        })
+        .fold(0.0, f64::max);
+    let limits: Vec<f64> = d
+        .iter()
+        .enumerate()
+        .map(|(i, di)| di * gain + round(i))
+        .collect();
+    let biased = after.iter().zip(&limits).position(|(a, l)| a > l);
+    (after, limits, biased)
+}
+
+/// Computes the metrics and the verdict of `run`. `tolerance` overrides
+/// the band when given (`--tolerance`).
+pub fn measure(
+    design: &Design,
+    traj: &Trajectory,
+    run: &FormatRun,
+    reference_run: &FormatRun,
+    reference: &Reference,
+    tolerance: Option<&[f64]>,
 ) -> Metrics {
     let n = traj.n;
     let len = traj.steps + 1;
+    let rounding = rounding(design, run, reference);
+    let residual = residual(traj, reference_run);
+    let band = tolerance.map_or_else(|| band(reference, &rounding, &residual), <[f64]>::to_vec);
     let mut rms_error = Vec::with_capacity(n);
     let mut final_error = Vec::with_capacity(n);
     let mut stable = true;
-    // Last step outside the band, over all states.
+    let mut finite = true;
     let mut last_outside: Option<usize> = None;
-    for (i, &tol) in tolerance.iter().enumerate().take(n) {
+    for (i, &tol) in band.iter().enumerate().take(n) {
         let e: Vec<f64> = errors(traj, run, i).collect();
         let sum_sq: f64 = e.iter().map(|v| v * v).sum();
         rms_error.push((sum_sq / len as f64).sqrt());
@@ -87,7 +343,7 @@ pub fn measure(
                 .iter()
                 .fold(0.0, |m: f64, v| m.max(v.abs()))
         };
-        let finite = e.iter().all(|v| v.is_finite());
+        finite &= e.iter().all(|v| v.is_finite());
         if !finite || quarter(3) > quarter(2) + tol {
             stable = false;
         }
@@ -97,13 +353,39 @@ pub fn measure(
         Some(k) if k + 1 < len => Some(k + 1),
         Some(_) => None,
     };
+    // Unsettled runs are tested for a bias over their last quarter: an
+    // error that stays outside its band by a steady amount is a bias.
+    let start = settling_step.unwrap_or(len - len / 4);
+    let (mean_error, mean_limit, biased) = if reference.noisy {
+        bias_with_noise(traj, run, reference, &rounding, start)
+    } else {
+        bias_without_noise(traj, run, reference, &rounding)
+    };
+    let (nees, nis, untested) = if settling_step.is_some() && finite {
+        consistency(design, traj, run, reference, start)
+    } else {
+        (None, None, None)
+    };
+    let verdict = if !finite {
+        Verdict::NotFinite
+    } else if let Some(state) = biased {
+        Verdict::Biased { state }
+    } else if settling_step.is_none() {
+        Verdict::NotSettled
+    } else if nees.is_some_and(|i| !i.holds()) {
+        Verdict::Inconsistent { test: "NEES" }
+    } else if nis.is_some_and(|i| !i.holds()) {
+        Verdict::Inconsistent { test: "NIS" }
+    } else {
+        Verdict::Converged
+    };
     let max_deviation_from_f64 = (0..n)
         .map(|i| {
             run.estimate
                 .iter()
                 .skip(i)
                 .step_by(n)
-                .zip(reference.estimate.iter().skip(i).step_by(n))
+                .zip(reference_run.estimate.iter().skip(i).step_by(n))
                 .fold(0.0, |m: f64, (a, b)| {
                     let d = (a - b).abs();
                     if d.is_nan() { f64::INFINITY } else { m.max(d) }
@@ -116,6 +398,36 @@ pub fn measure(
         settling_step,
         max_deviation_from_f64,
         stable,
-        converged: stable && settling_step.is_some(),
+        converged: verdict.converged(),
+        band,
+        rounding,
+        mean_error,
+        mean_limit,
+        nees,
+        nis,
+        untested,
+        verdict,
+    }
+}
+
+/// Carries the f64 observer's failure to the other formats of a run: when
+/// f64 diverged the design fails and no format is called converged; when
+/// f64 is biased, a format that otherwise passed follows that biased
+/// estimate within its own rounding and is biased too.
+pub fn carry_f64_verdict(formats: &mut [(FormatRun, Metrics)]) {
+    let Some(first) = formats.first().map(|(_, m)| m.verdict.clone()) else {
+        return;
+    };
+    for (_, m) in formats.iter_mut().skip(1) {
+        match (&first, &m.verdict) {
+            (Verdict::NotFinite, v) if *v != Verdict::NotFinite => {
+                m.verdict = Verdict::DesignFailed;
+            }
+            (Verdict::Biased { state }, Verdict::Converged) => {
+                m.verdict = Verdict::Biased { state: *state };
+            }
+            _ => {}
+        }
+        m.converged = m.verdict.converged();
     }
 }

@@ -14,10 +14,12 @@ pub mod output;
 pub mod plant;
 pub mod plot;
 pub mod predicted;
+pub mod reference;
 pub mod rng;
 pub mod runtime;
 pub mod signal;
 pub mod sweep;
+pub mod verdict;
 
 use crate::cli::SimArgs;
 use crate::error::CliError;
@@ -25,6 +27,7 @@ use lookout_design::Design;
 use metrics::Metrics;
 use options::SimOptions;
 use plant::{Trajectory, TruePlant};
+use reference::Reference;
 use runtime::{Format, FormatRun};
 
 /// Everything one run produced.
@@ -36,26 +39,77 @@ pub struct RunResult {
     pub formats: Vec<(FormatRun, Metrics)>,
     /// Formats that could not be built, with the reason.
     pub skipped: Vec<(Format, String)>,
-    /// Settling band per state.
+    /// Settling band per state (the f64 observer's; each format has its
+    /// own in its metrics).
     pub tolerance: Vec<f64>,
+    /// Where the band comes from.
+    pub tolerance_source: String,
     /// Largest relative change applied to an entry of A or B.
     pub perturbation: f64,
     /// Non-fatal findings.
     pub warnings: Vec<String>,
 }
 
-/// The formats the design can run in: f64, f32, and Q31 and Q15 with a
-/// `[fixed_point]` section.
+/// The formats a run uses by default: f64, f32 and the `[fixed_point]`
+/// format the model was designed for (the other Q format only on request,
+/// `--formats`).
 pub fn formats(design: &Design) -> Vec<Format> {
     let mut out = vec![Format::F64, Format::F32];
-    if design.fixed_point.is_some() {
-        out.extend([Format::Q31, Format::Q15]);
+    if let Some(fx) = &design.fixed_point {
+        out.push(match fx.format {
+            lookout_design::model::FixedFormat::Q31 => Format::Q31,
+            lookout_design::model::FixedFormat::Q15 => Format::Q15,
+        });
     }
     out
 }
 
-/// One run with plant seed `seed`.
-pub fn run_once(design: &Design, opts: &SimOptions, seed: u64) -> Result<RunResult, CliError> {
+/// `--formats`: a comma-separated list; f64 always runs first (every
+/// format is measured against it). Q formats need a `[fixed_point]`
+/// section.
+pub fn requested_formats(design: &Design, text: Option<&str>) -> Result<Vec<Format>, CliError> {
+    let Some(text) = text else {
+        return Ok(formats(design));
+    };
+    let mut out = vec![Format::F64];
+    for name in text.split(',').map(str::trim) {
+        let f = [Format::F64, Format::F32, Format::Q31, Format::Q15]
+            .into_iter()
+            .find(|f| f.name() == name.to_ascii_lowercase())
+            .ok_or_else(|| {
+                CliError::BadInput(format!(
+                    "--formats: `{name}` is not one of f64, f32, q31, q15"
+                ))
+            })?;
+        if matches!(f, Format::Q31 | Format::Q15) && design.fixed_point.is_none() {
+            return Err(CliError::BadInput(format!(
+                "--formats {name}: the model has no [fixed_point] section to scale the Q tables"
+            )));
+        }
+        if !out.contains(&f) {
+            out.push(f);
+        }
+    }
+    Ok(out)
+}
+
+/// What every run of one `simulate` call shares.
+#[derive(Debug, Clone)]
+pub struct Setup {
+    /// The design's statistics the runs are judged against.
+    pub reference: Reference,
+    /// The formats to run, f64 first.
+    pub formats: Vec<Format>,
+}
+
+/// One run with plant seed `seed`, judged against `reference`.
+pub fn run_once(
+    design: &Design,
+    opts: &SimOptions,
+    setup: &Setup,
+    seed: u64,
+) -> Result<RunResult, CliError> {
+    let reference = &setup.reference;
     let plant = TruePlant::of(design, opts.mismatch, seed)?;
     let (traj, warnings) = plant::record(design, &plant, opts, seed)?;
     if let Some(v) = traj.truth.iter().chain(&traj.y).find(|v| !v.is_finite()) {
@@ -69,27 +123,52 @@ pub fn run_once(design: &Design, opts: &SimOptions, seed: u64) -> Result<RunResu
         .zip(&opts.initial_error)
         .map(|(x, e)| x - e)
         .collect();
-    let (runs, skipped) = run_formats(design, &traj, &x0)?;
-    let reference = runs
+    let (runs, skipped) = run_formats(design, &setup.formats, &traj, &x0)?;
+    let reference_run = runs
         .first()
         .cloned()
         .ok_or_else(|| CliError::Failure("the f64 observer did not run".into()))?;
-    let tolerance = opts
-        .tolerance
-        .clone()
-        .unwrap_or_else(|| metrics::default_tolerance(&traj, &reference));
-    let formats = runs
+    let mut formats: Vec<(FormatRun, Metrics)> = runs
         .into_iter()
         .map(|r| {
-            let m = metrics::measure(&traj, &r, &reference, &tolerance);
+            let m = metrics::measure(
+                design,
+                &traj,
+                &r,
+                &reference_run,
+                reference,
+                opts.tolerance.as_deref(),
+            );
             (r, m)
         })
         .collect();
+    metrics::carry_f64_verdict(&mut formats);
+    let tolerance = formats
+        .first()
+        .map(|(_, m)| m.band.clone())
+        .unwrap_or_default();
+    let tolerance_source = if opts.tolerance.is_some() {
+        "--tolerance".to_string()
+    } else if reference.noisy {
+        format!(
+            "k·σ per state with k = {:.2} (a consistent error leaves it anywhere in the run with probability {}), σ from {}; plus {} × the format's predicted rounding deviation",
+            reference.k,
+            reference::BAND_MISS,
+            reference.source,
+            reference::ROUNDING_MULTIPLE
+        )
+    } else {
+        format!(
+            "{} × the format's predicted rounding deviation (Σ|Fᵏ| times the per-step bound) plus the f64 run's residual over the last quarter",
+            reference::ROUNDING_MULTIPLE
+        )
+    };
     Ok(RunResult {
         traj,
         formats,
         skipped,
         tolerance,
+        tolerance_source,
         perturbation: plant.perturbation,
         warnings,
     })
@@ -98,11 +177,12 @@ pub fn run_once(design: &Design, opts: &SimOptions, seed: u64) -> Result<RunResu
 /// Formats that could not be built, with the reason.
 pub type Skipped = Vec<(Format, String)>;
 
-/// Runs every format of [`formats`] over `traj` from the estimate `x0`
-/// (f64 first). A Q format the design was not made for is skipped, with the
-/// reason, when its tables cannot be built.
+/// Runs each of `formats` (f64 first) over `traj` from the estimate `x0`.
+/// A Q format the design was not made for is skipped, with the reason, when
+/// its tables cannot be built.
 pub fn run_formats(
     design: &Design,
+    formats: &[Format],
     traj: &Trajectory,
     x0: &[f64],
 ) -> Result<(Vec<FormatRun>, Skipped), CliError> {
@@ -112,7 +192,7 @@ pub fn run_formats(
     });
     let mut runs = Vec::new();
     let mut skipped = Vec::new();
-    for format in formats(design) {
+    for &format in formats {
         match runtime::run(design, format, traj, x0) {
             Ok(r) => runs.push(r),
             // The other Q format was not designed for: it may not fit.
@@ -135,9 +215,9 @@ pub const MAX_SERIES_BYTES: u64 = 1 << 30;
 
 /// Checks the options of `lookout simulate` against the design, before
 /// anything is printed or simulated: every refusal names the option.
-pub fn prepare(design: &Design, args: &SimArgs) -> Result<SimOptions, CliError> {
+pub fn prepare(design: &Design, args: &SimArgs) -> Result<(SimOptions, Setup), CliError> {
     runtime::check_sizes(design)?;
-    let opts = SimOptions::from_args(args, design.n(), design.m())?;
+    let mut opts = SimOptions::from_args(args, design.n(), design.m())?;
     if opts.sweep.is_some() && (args.plot.is_some() || args.csv.is_some()) {
         return Err(CliError::BadInput(
             "--plot and --csv show one run: rerun the worst case the sweep reports with its --seed"
@@ -147,15 +227,27 @@ pub fn prepare(design: &Design, args: &SimArgs) -> Result<SimOptions, CliError> 
     if let Some(path) = &args.plot {
         plot::check_path(path, design.n())?;
     }
-    check_memory(design, &opts, args.csv.is_some())?;
-    Ok(opts)
+    let setup = Setup {
+        reference: Reference::of(design, &opts)?,
+        formats: requested_formats(design, args.formats.as_deref())?,
+    };
+    if args.initial_error.is_none() {
+        opts.initial_error = setup.reference.initial_error();
+    }
+    check_memory(design, &opts, setup.formats.len(), args.csv.is_some())?;
+    Ok((opts, setup))
 }
 
 /// Refuses a run whose time series would not fit [`MAX_SERIES_BYTES`]
 /// (per run in parallel for a sweep), estimated before anything is allocated.
-fn check_memory(design: &Design, opts: &SimOptions, csv: bool) -> Result<(), CliError> {
+fn check_memory(
+    design: &Design,
+    opts: &SimOptions,
+    formats: usize,
+    csv: bool,
+) -> Result<(), CliError> {
     let (n, m, p) = (design.n() as u64, design.m() as u64, design.p() as u64);
-    let formats = formats(design).len() as u64;
+    let formats = formats as u64;
     // f64 truth, inputs, readings and estimates, a flag per reading, and
     // for --csv about 24 characters per number of the text.
     let mut per_step = 8 * (n * (1 + formats) + m + p) + p;
@@ -185,16 +277,20 @@ fn check_memory(design: &Design, opts: &SimOptions, csv: bool) -> Result<(), Cli
 
 /// `lookout simulate` with options checked by [`prepare`]: returns what
 /// goes to standard output.
-pub fn simulate(design: &Design, args: &SimArgs, opts: &SimOptions) -> Result<String, CliError> {
+pub fn simulate(
+    design: &Design,
+    args: &SimArgs,
+    (opts, setup): &(SimOptions, Setup),
+) -> Result<String, CliError> {
     if let Some(runs) = opts.sweep {
-        let summary = sweep::run(design, opts, runs)?;
+        let summary = sweep::run(design, opts, setup, runs)?;
         return Ok(if args.json {
             output::sweep_json(design, opts, &summary)
         } else {
             output::sweep_text(design, opts, &summary)
         });
     }
-    let result = run_once(design, opts, opts.seed)?;
+    let result = run_once(design, opts, setup, opts.seed)?;
     if let Some(path) = &args.csv {
         output::write_csv(path, design, &result)?;
     }

@@ -5,36 +5,90 @@ use super::metrics::Metrics;
 use super::options::SimOptions;
 use super::runtime::{Format, FormatRun};
 use super::sweep::SweepSummary;
+use super::verdict::{Interval, Verdict};
 use crate::error::CliError;
 use lookout_design::Design;
 use serde_json::{Value, json};
 use std::fmt::Write as _;
 use std::path::Path;
 
-/// Unit of each estimated state ("" where the model gives none; the
-/// disturbance states' units are not in the model).
+/// Unit of each estimated state, disturbance states included ("" where
+/// the model gives none).
 pub fn state_units(design: &Design) -> Vec<String> {
-    let units = design.model.plant.state_units.clone().unwrap_or_default();
-    (0..design.n())
-        .map(|i| units.get(i).cloned().unwrap_or_default())
-        .collect()
+    design.model.state_units()
 }
 
-fn verdict(run: &FormatRun, m: &Metrics, t: f64) -> String {
+fn verdict(design: &Design, run: &FormatRun, m: &Metrics, t: f64) -> String {
     let tail = format!(
-        "{} saturation{}, {} gated",
+        "{} saturation{}, {} gated, {} re-acquired",
         run.saturations,
         if run.saturations == 1 { "" } else { "s" },
-        run.gated
+        run.gated,
+        run.reacquired
     );
-    match (m.converged, m.settling_step) {
-        (true, Some(k)) => format!(
-            "CONVERGED: within tolerance from step {k} ({:.4} s); {tail}",
-            k as f64 * t
+    let names = design.state_names();
+    let name = |i: usize| names.get(i).map_or("?", String::as_str);
+    match (&m.verdict, m.settling_step) {
+        (Verdict::Converged, Some(k)) => format!(
+            "CONVERGED: within its band from step {k} ({:.4} s), no bias{}; {tail}",
+            k as f64 * t,
+            if m.nees.is_some() || m.nis.is_some() {
+                ", consistent"
+            } else {
+                " (consistency not tested)"
+            }
         ),
-        _ if !m.stable => format!("NOT CONVERGED: the error grows or is not finite; {tail}"),
-        _ => format!("NOT CONVERGED: the error never stays within tolerance; {tail}"),
+        (Verdict::Biased { state }, _) => format!(
+            "BIASED: the error of {} ({:.3e}) does not average out or decay (limit ±{:.3e}); a steady model mismatch or an unmodelled load: model it under [disturbances]; {tail}",
+            name(*state),
+            m.mean_error.get(*state).copied().unwrap_or(f64::NAN),
+            m.mean_limit.get(*state).copied().unwrap_or(f64::NAN)
+        ),
+        (Verdict::Inconsistent { test }, _) => format!(
+            "NOT CONVERGED: settled, but the {test} average is outside its chi-square interval: the error is not what the design predicts; {tail}"
+        ),
+        (Verdict::NotFinite, _) if run.format == Format::F64 => {
+            format!("DIVERGED: the f64 observer's error is not finite: the design fails; {tail}")
+        }
+        (Verdict::NotFinite, _) => format!("DIVERGED: the error is not finite; {tail}"),
+        (Verdict::DesignFailed, _) => {
+            format!("NOT CONVERGED: the f64 observer diverged, so the design fails; {tail}")
+        }
+        _ => format!("NOT CONVERGED: the error never stays within its band; {tail}"),
     }
+}
+
+/// The statistics line of a format: NEES, NIS and the mean-error test.
+fn statistics(m: &Metrics, n: usize) -> String {
+    let show = |name: &str, i: &Option<Interval>| {
+        i.map(|i| {
+            format!(
+                "{name} {:.3} in [{:.3}, {:.3}] ({} samples of {} degrees) {}",
+                i.value,
+                i.low,
+                i.high,
+                i.samples,
+                i.dof,
+                if i.holds() { "ok" } else { "OUTSIDE" }
+            )
+        })
+    };
+    let mut parts: Vec<String> = [show("NEES", &m.nees), show("NIS", &m.nis)]
+        .into_iter()
+        .flatten()
+        .collect();
+    if let Some(why) = &m.untested {
+        parts.push(format!("consistency not tested: {why}"));
+    }
+    if m.nees.is_none() && m.nis.is_none() {
+        return parts.join("; ");
+    }
+    format!(
+        "tests at {:.3} % each ({} % for the run): {}",
+        100.0 * super::reference::test_confidence(n),
+        100.0 * super::reference::CONFIDENCE,
+        parts.join("; ")
+    )
 }
 
 /// The readable report.
@@ -67,31 +121,40 @@ pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
     for (i, name) in names.iter().enumerate() {
         let _ = writeln!(
             s,
-            "tolerance {name}: {:.3e} {}",
+            "tolerance {name}: {:.3e} {} (f64)",
             r.tolerance.get(i).copied().unwrap_or(f64::NAN),
             units.get(i).map_or("", String::as_str)
         );
     }
+    let _ = writeln!(s, "tolerance source: {}", r.tolerance_source);
     for (run, m) in &r.formats {
         let _ = writeln!(s, "\n{}", run.format.name());
         let _ = writeln!(
             s,
-            "  {:<14} {:>13} {:>13} {:>13}  unit",
-            "state", "rms error", "final error", "max |x̂−x̂64|"
+            "  {:<14} {:>13} {:>13} {:>13} {:>13} {:>13}  unit",
+            "state", "rms error", "final error", "mean error", "band", "max |x̂−x̂64|"
         );
         for (i, name) in names.iter().enumerate() {
             let get = |v: &Vec<f64>| v.get(i).copied().unwrap_or(f64::NAN);
             let _ = writeln!(
                 s,
-                "  {:<14} {:>13.4e} {:>13.4e} {:>13.4e}  {}",
+                "  {:<14} {:>13.4e} {:>13.4e} {:>13.4e} {:>13.4e} {:>13.4e}  {}",
                 name,
                 get(&m.rms_error),
                 get(&m.final_error),
+                get(&m.mean_error),
+                get(&m.band),
                 get(&m.max_deviation_from_f64),
                 units.get(i).map_or("", String::as_str)
             );
         }
-        let _ = writeln!(s, "  verdict {}: {}", run.format.name(), verdict(run, m, t));
+        let _ = writeln!(s, "  {}", statistics(m, names.len()));
+        let _ = writeln!(
+            s,
+            "  verdict {}: {}",
+            run.format.name(),
+            verdict(design, run, m, t)
+        );
         if let Some(c) = super::predicted::check(design, r, run, m) {
             let _ = writeln!(s, "  {}", c.line());
         }
@@ -116,6 +179,12 @@ pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
     s
 }
 
+fn interval_json(i: Option<Interval>) -> Value {
+    i.map_or(Value::Null, |i| {
+        json!({"value": i.value, "low": i.low, "high": i.high, "samples": i.samples, "dof": i.dof, "holds": i.holds()})
+    })
+}
+
 /// The `--json` object (stable keys, see docs/simulate.md).
 pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
     let formats: Vec<Value> = r
@@ -134,9 +203,18 @@ pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
                 "max_deviation_from_f64": m.max_deviation_from_f64,
                 "saturations": run.saturations,
                 "gated": run.gated,
+                "reacquired": run.reacquired,
                 "dropped": r.traj.dropped,
                 "stable": m.stable,
                 "converged": m.converged,
+                "verdict": m.verdict.label(),
+                "band": m.band,
+                "predicted_rounding_deviation": m.rounding,
+                "mean_error": m.mean_error,
+                "mean_error_limit": m.mean_limit,
+                "nees": interval_json(m.nees),
+                "nis": interval_json(m.nis),
+                "consistency_untested": m.untested,
             })
         })
         .collect();
@@ -148,6 +226,8 @@ pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
         "state_names": design.state_names(),
         "state_units": state_units(design),
         "tolerance": r.tolerance,
+        "tolerance_source": r.tolerance_source,
+        "confidence": super::reference::CONFIDENCE,
         "mismatch": opts.mismatch,
         "perturbation": r.perturbation,
         "dropped": r.traj.dropped,
@@ -242,13 +322,15 @@ pub fn sweep_text(design: &Design, opts: &SimOptions, s: &SweepSummary) -> Strin
         opts.seed
     );
     let names = design.state_names();
+    let _ = writeln!(out, "tolerance source: {}", s.tolerance_source);
     for f in &s.formats {
         let _ = writeln!(
             out,
-            "\n{}: error bounded in {:.1} % of runs, converged in {:.1} %",
+            "\n{}: error bounded in {:.1} % of runs, converged in {:.1} %, biased in {:.1} %",
             f.format.name(),
             100.0 * f.stable as f64 / s.runs as f64,
-            100.0 * f.converged as f64 / s.runs as f64
+            100.0 * f.converged as f64 / s.runs as f64,
+            100.0 * f.biased as f64 / s.runs as f64
         );
         for w in &f.worst {
             let errs: Vec<String> = names
@@ -263,11 +345,12 @@ pub fn sweep_text(design: &Design, opts: &SimOptions, s: &SweepSummary) -> Strin
                 w.seed,
                 100.0 * w.perturbation,
                 errs.join(", "),
-                if w.converged {
-                    "converged"
-                } else {
-                    "not converged"
-                }
+                w.verdict
+            );
+            let _ = writeln!(
+                out,
+                "    rerun: {}",
+                super::sweep::rerun_command(w.seed, opts.mismatch)
             );
         }
     }
@@ -294,7 +377,10 @@ pub fn sweep_json(design: &Design, opts: &SimOptions, s: &SweepSummary) -> Strin
                     "final_error": w.final_error,
                     "settling_step": w.settling_step,
                     "converged": w.converged,
+                    "verdict": w.verdict,
+                    "rerun": super::sweep::rerun_command(w.seed, opts.mismatch),
                 })).collect::<Vec<_>>(),
+                "biased_fraction": f.biased as f64 / s.runs as f64,
             })
         })
         .collect();
@@ -304,6 +390,7 @@ pub fn sweep_json(design: &Design, opts: &SimOptions, s: &SweepSummary) -> Strin
         "steps": opts.steps,
         "seed": opts.seed,
         "mismatch": opts.mismatch,
+        "tolerance_source": s.tolerance_source,
         "state_names": design.state_names(),
         "formats": formats,
         "skipped_formats": s.skipped.iter().map(|(f, why)| json!({"format": f.name(), "reason": why})).collect::<Vec<_>>(),

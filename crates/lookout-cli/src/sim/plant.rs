@@ -96,6 +96,8 @@ pub struct Trajectory {
     pub dropped: usize,
     /// Readings made outliers.
     pub outliers: usize,
+    /// Whether each reading is an outlier, p per row.
+    pub outlier: Vec<bool>,
 }
 
 /// Square root factor S (S Sᵀ = cov) of a covariance, through its
@@ -118,10 +120,10 @@ fn covariance_factor(name: &str, cov: &DMatrix<f64>) -> Result<DMatrix<f64>, Cli
 
 /// Square-root factors of the process noise (on the plant states) and of
 /// the measurement noise (on the outputs); `None` where there is none.
-type NoiseFactors = (Option<DMatrix<f64>>, Option<DMatrix<f64>>);
+pub(crate) type NoiseFactors = (Option<DMatrix<f64>>, Option<DMatrix<f64>>);
 
 /// Noise factors (process on the plant states, measurement on the outputs).
-fn noise_factors(
+pub(crate) fn noise_factors(
     design: &Design,
     opts: &SimOptions,
     n_plant: usize,
@@ -235,6 +237,7 @@ pub fn record(
         valid: Vec::with_capacity(steps * p),
         dropped: 0,
         outliers: 0,
+        outlier: Vec::with_capacity(steps * p),
     };
     let acting = |k: usize| opts.disturbance.filter(|d| k >= d.start);
     for k in 0..=steps {
@@ -257,11 +260,13 @@ pub fn record(
         }
         for yj in y.iter_mut() {
             let valid = !readings.chance(opts.dropout_rate);
-            if readings.chance(opts.outlier_rate) {
+            let outlier = readings.chance(opts.outlier_rate);
+            if outlier {
                 let sign = if readings.chance(0.5) { 1.0 } else { -1.0 };
                 *yj += sign * opts.outlier_size;
                 tr.outliers += 1;
             }
+            tr.outlier.push(outlier);
             tr.dropped += usize::from(!valid);
             tr.valid.push(valid);
             tr.y.push(*yj);

@@ -11,6 +11,7 @@ use crate::error::CliError;
 use lookout_design::Design;
 use nalgebra::Complex;
 use plotters::coord::Shift;
+use plotters::coord::types::RangedCoordf64;
 use plotters::prelude::*;
 use std::path::Path;
 use std::sync::OnceLock;
@@ -257,6 +258,7 @@ fn draw<DB: DrawingBackend>(
                 .label(label)
                 .legend(move |(x, y)| PathElement::new(vec![(x, y), (x + 24, y)], s));
         }
+        marks(&mut chart, r, t, lo - pad).map_err(e)?;
         chart
             .configure_series_labels()
             .position(SeriesLabelPosition::UpperRight)
@@ -267,6 +269,60 @@ fn draw<DB: DrawingBackend>(
             .map_err(e)?;
     }
     pole_map(&right.margin(10, 10, 10, 10), d).map_err(|x| x.to_string())
+}
+
+/// Steps with any reading dropped or an outlier, and steps the f64
+/// observer gated.
+fn event_steps(r: &RunResult) -> [(Vec<usize>, RGBColor, &'static str); 3] {
+    let p = r.traj.p.max(1);
+    let any = |flags: &[bool]| -> Vec<usize> {
+        flags
+            .chunks(p)
+            .enumerate()
+            .filter(|(_, c)| c.iter().any(|&f| f))
+            .map(|(k, _)| k)
+            .collect()
+    };
+    let dropped: Vec<bool> = r.traj.valid.iter().map(|v| !v).collect();
+    let gated = r
+        .formats
+        .first()
+        .map(|(run, _)| run.gated_steps.clone())
+        .unwrap_or_default();
+    [
+        (any(&dropped), RGBColor(140, 140, 140), "reading dropped"),
+        (any(&r.traj.outlier), RGBColor(240, 150, 0), "outlier"),
+        (gated, RGBColor(200, 0, 0), "gated (f64)"),
+    ]
+}
+
+/// Short ticks along the bottom of an error panel at the dropped, outlying
+/// and gated readings (one row each, in the legend when any occur).
+fn marks<DB: DrawingBackend>(
+    chart: &mut ChartContext<'_, DB, Cartesian2d<RangedCoordf64, RangedCoordf64>>,
+    r: &RunResult,
+    t: f64,
+    bottom: f64,
+) -> Result<(), DrawingAreaErrorKind<DB::ErrorType>> {
+    for (row, (steps, colour, label)) in event_steps(r).into_iter().enumerate() {
+        if steps.is_empty() {
+            continue;
+        }
+        let offset = 4 + 8 * i32::try_from(row).unwrap_or(0);
+        chart
+            .draw_series(steps.iter().map(|&k| {
+                EmptyElement::at((k as f64 * t, bottom))
+                    + PathElement::new(vec![(0, -offset), (0, -offset - 6)], colour.stroke_width(2))
+            }))?
+            .label(format!("{label} ({})", steps.len()))
+            .legend(move |(x, y)| {
+                PathElement::new(
+                    vec![(x + 10, y - 5), (x + 10, y + 5)],
+                    colour.stroke_width(2),
+                )
+            });
+    }
+    Ok(())
 }
 
 /// Tick label for an axis spanning `span`: plain decimals with as many
@@ -385,14 +441,23 @@ fn pole_chart<DB: DrawingBackend>(
         )?
         .label("plant poles (eig Ad)")
         .legend(move |(x, y)| Cross::new((x + 10, y), 6, blue.stroke_width(2)));
+    // Filled: an open circle means a zero to control engineers.
     chart
         .draw_series(
             d.error_poles
                 .iter()
-                .map(|z| Circle::new((z.re, z.im), 8, red.stroke_width(2))),
+                .map(|z| Circle::new((z.re, z.im), 6, red.filled())),
         )?
-        .label("designed error poles (eig F)")
-        .legend(move |(x, y)| Circle::new((x + 10, y), 6, red.stroke_width(2)));
+        .label("designed error poles (eig F; ×k: repeated k times)")
+        .legend(move |(x, y)| Circle::new((x + 10, y), 5, red.filled()));
+    chart.draw_series(repeated(&d.error_poles).into_iter().map(|(z, k)| {
+        EmptyElement::at((z.re, z.im))
+            + Text::new(
+                format!("×{k}"),
+                (8, -18),
+                ("sans-serif", 14).into_font().color(&red),
+            )
+    }))?;
     if let Some(fixed) = &d.fixed_point {
         let name = lookout_design::fixed_point::format_name(fixed.format);
         chart
@@ -415,4 +480,21 @@ fn pole_chart<DB: DrawingBackend>(
             .draw()?;
     }
     Ok(())
+}
+
+/// Poles that occur more than once (within 1e-9 of the unit circle's
+/// scale, relative), with their multiplicity.
+fn repeated(poles: &[Complex<f64>]) -> Vec<(Complex<f64>, usize)> {
+    let mut groups: Vec<(Complex<f64>, usize)> = Vec::new();
+    for z in poles {
+        match groups
+            .iter_mut()
+            .find(|(g, _)| (g - z).norm() <= 1e-9 * g.norm().max(1.0))
+        {
+            Some((_, k)) => *k += 1,
+            None => groups.push((*z, 1)),
+        }
+    }
+    groups.retain(|&(_, k)| k > 1);
+    groups
 }

@@ -25,11 +25,11 @@
 //!   observer to its per-channel test on every step. A padded channel passes
 //!   the per-channel test (0 ≤ limit), and the joint test's extra terms are 0.
 //!
-//! The one visible difference: with every real reading dropped the padded
-//! step reports `Corrected` (through zero innovations) where the unpadded
-//! one reports `PredictedOnly`, with the same estimate. The simulation
-//! counts dropped readings itself and never reads that outcome. A unit test
-//! checks that a padded run equals an unpadded one bit for bit.
+//! With every real reading dropped the padded channels are masked too, so
+//! the padded step also reports `PredictedOnly` (it would otherwise
+//! "correct" through zero innovations, and the gate's count of consecutive
+//! misses, which widens its test, would differ). A unit test checks that a
+//! padded run equals an unpadded one bit for bit.
 
 use super::plant::Trajectory;
 use crate::error::CliError;
@@ -37,7 +37,7 @@ use lookout::{
     ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedPredictorObserver, FixedPredictorTables,
     FusedObserver, FusedTables, Gate, Matrix, Outcome, Plant, PredictorObserver, PredictorTables,
-    Q15, Q31, Real, Scales, Status, dequantise_real, quantise_real,
+    Q15, Q31, Real, Recovery, Scales, Status, dequantise_real, quantise_real,
 };
 use lookout_design::Design;
 use lookout_design::fixed_point::QuantisedTable;
@@ -89,6 +89,10 @@ pub struct FormatRun {
     pub saturations: u64,
     /// Steps whose measurement failed the innovation gate.
     pub gated: usize,
+    /// Which steps those were (for the plot).
+    pub gated_steps: Vec<usize>,
+    /// Steps whose reading the gate applied untested after too many misses.
+    pub reacquired: usize,
 }
 
 /// Refuses models the dispatch does not cover.
@@ -182,6 +186,20 @@ enum FloatTables<T, const N: usize, const M: usize, const P: usize> {
     Fused(FusedTables<T, N, M, P>),
 }
 
+/// The gate's widened limits in `T` (a limit beyond `T`'s range is
+/// infinite: that stage accepts every finite reading).
+fn recovery<T: Scalar>(g: &lookout_design::design::GateDesign) -> Recovery<T> {
+    let of = |v: f64| T::of(v).unwrap_or_else(T::infinity);
+    let mut r = Recovery::none(of(0.0));
+    let pairs = g.recovery_limits();
+    r.stages = u8::try_from(pairs.len()).unwrap_or(u8::MAX);
+    r.per_miss = g.per_miss;
+    for (slot, [a, b]) in r.limits.iter_mut().zip(pairs) {
+        *slot = [of(a), of(b)];
+    }
+    r
+}
+
 fn float_tables<T: Scalar, const N: usize, const M: usize, const P: usize>(
     d: &Design,
 ) -> Result<FloatTables<T, N, M, P>, CliError> {
@@ -192,6 +210,7 @@ fn float_tables<T: Scalar, const N: usize, const M: usize, const P: usize>(
             limit: T::of(g.limit).unwrap_or_else(T::infinity),
             channel_inv_variance: padded_vec(&g.channel_inv_variance),
             channel_limit: T::of(g.channel_limit).unwrap_or_else(T::infinity),
+            recovery: recovery(g),
         }),
     };
     let plant = || -> Result<Plant<T, N, M, P>, CliError> {
@@ -234,6 +253,9 @@ trait Stepper {
 }
 
 fn mask<const P: usize>(valid: &[bool]) -> ChannelMask {
+    if !valid.iter().any(|&ok| ok) {
+        return ChannelMask::NONE;
+    }
     valid.iter().enumerate().fold(
         ChannelMask::all(P),
         |m, (j, &ok)| if ok { m } else { m.without(j) },
@@ -319,6 +341,8 @@ fn drive(obs: &mut dyn Stepper, format: Format, traj: &Trajectory) -> FormatRun 
         estimate: Vec::with_capacity((traj.steps + 1) * n),
         saturations: 0,
         gated: 0,
+        gated_steps: Vec::new(),
+        reacquired: 0,
     };
     obs.push_estimate(n, &mut run.estimate);
     for k in 0..traj.steps {
@@ -327,7 +351,11 @@ fn drive(obs: &mut dyn Stepper, format: Format, traj: &Trajectory) -> FormatRun 
         let valid = traj.valid.get(k * p..(k + 1) * p).unwrap_or(&[]);
         let (status, clamped) = obs.step(u, y, valid);
         run.saturations += u64::from(status.saturations) + u64::from(clamped);
-        run.gated += usize::from(status.outcome == Outcome::Gated);
+        if status.outcome == Outcome::Gated {
+            run.gated += 1;
+            run.gated_steps.push(k);
+        }
+        run.reacquired += usize::from(status.outcome == Outcome::Reacquired);
         obs.push_estimate(n, &mut run.estimate);
     }
     run
@@ -398,11 +426,8 @@ fn run_fixed<Q: Fixed, const N: usize, const M: usize, const P: usize>(
     };
     let mut clamped = 0;
     let x0 = q_vec::<Q, N>(x0, &scales.state, &mut clamped);
-    // The Q tables are emitted without the gate (see the design's warning),
-    // so they are built from the ungated float tables.
     let mut run = match float_tables::<f64, N, M, P>(design)? {
-        FloatTables::Predictor(mut t) => {
-            t.gate = None;
+        FloatTables::Predictor(t) => {
             let q = FixedPredictorTables::<Q, N, M, P>::from_float(&t, scales).map_err(convert)?;
             if designed {
                 let o = &q.output;
@@ -418,8 +443,7 @@ fn run_fixed<Q: Fixed, const N: usize, const M: usize, const P: usize>(
             }
             drive(&mut FixedPredictorObserver::new(&q, x0), format, traj)
         }
-        FloatTables::Current(mut t) => {
-            t.gate = None;
+        FloatTables::Current(t) => {
             let q = FixedCurrentTables::<Q, N, M, P>::from_float(&t, scales).map_err(convert)?;
             if designed {
                 let o = &q.output;
@@ -435,8 +459,7 @@ fn run_fixed<Q: Fixed, const N: usize, const M: usize, const P: usize>(
             }
             drive(&mut FixedCurrentObserver::new(&q, x0), format, traj)
         }
-        FloatTables::Fused(mut t) => {
-            t.gate = None;
+        FloatTables::Fused(t) => {
             let q = FixedFusedTables::<Q, N, M, P>::from_float(&t, scales).map_err(convert)?;
             if designed {
                 let o = &q.output;
@@ -534,6 +557,7 @@ mod tests {
             font: None,
             csv: None,
             sweep: None,
+            formats: None,
         }
     }
 

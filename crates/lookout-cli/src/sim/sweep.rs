@@ -2,6 +2,7 @@
 
 use super::options::SimOptions;
 use super::runtime::Format;
+use super::verdict::Verdict;
 use super::{RunResult, run_once};
 use crate::error::CliError;
 use lookout_design::Design;
@@ -28,6 +29,8 @@ pub struct WorstCase {
     pub settling_step: Option<usize>,
     /// Whether it converged.
     pub converged: bool,
+    /// Its verdict's label.
+    pub verdict: &'static str,
     /// max_i |final_error_i| / tolerance_i, the ranking key.
     score: f64,
 }
@@ -41,6 +44,8 @@ pub struct FormatSummary {
     pub stable: usize,
     /// Runs that converged.
     pub converged: usize,
+    /// Runs found biased.
+    pub biased: usize,
     /// The worst runs, worst first.
     pub worst: Vec<WorstCase>,
 }
@@ -54,6 +59,8 @@ pub struct SweepSummary {
     pub formats: Vec<FormatSummary>,
     /// Formats not run, with the reason.
     pub skipped: Vec<(Format, String)>,
+    /// Where the first run's band came from.
+    pub tolerance_source: String,
 }
 
 /// The seed of run `i`: run 0 is `--seed` itself, so the worst case of a
@@ -74,9 +81,14 @@ const ANNOUNCE_AFTER_S: f64 = 10.0;
 /// its duration gives the time estimate printed before a long sweep. The
 /// others run in parallel and are folded into the tallies as they finish,
 /// so memory does not grow with N.
-pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSummary, CliError> {
+pub fn run(
+    design: &Design,
+    opts: &SimOptions,
+    setup: &super::Setup,
+    runs: usize,
+) -> Result<SweepSummary, CliError> {
     let started = std::time::Instant::now();
-    let first = run_once(design, opts, run_seed(opts.seed, 0))?;
+    let first = run_once(design, opts, setup, run_seed(opts.seed, 0))?;
     let one = started.elapsed().as_secs_f64();
     let threads = rayon::current_num_threads().max(1);
     let estimate = one * (runs - 1) as f64 / threads as f64;
@@ -86,6 +98,7 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
         );
     }
     let skipped = first.skipped.clone();
+    let tolerance_source = first.tolerance_source.clone();
     let empty: Vec<FormatSummary> = first
         .formats
         .iter()
@@ -93,6 +106,7 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
             format: run.format,
             stable: 0,
             converged: 0,
+            biased: 0,
             worst: Vec::new(),
         })
         .collect();
@@ -102,7 +116,7 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
     let rest = (1..runs)
         .into_par_iter()
         .map(|i| {
-            let r = run_once(design, opts, run_seed(opts.seed, i));
+            let r = run_once(design, opts, setup, run_seed(opts.seed, i));
             progress.tick();
             r.map(|r| tally(&empty, i, &r, opts))
         })
@@ -111,6 +125,7 @@ pub fn run(design: &Design, opts: &SimOptions, runs: usize) -> Result<SweepSumma
         runs,
         formats: merge(head, rest),
         skipped,
+        tolerance_source,
     })
 }
 
@@ -125,6 +140,7 @@ fn tally(
     for (summary, (_, m)) in formats.iter_mut().zip(&r.formats) {
         summary.stable += usize::from(m.stable);
         summary.converged += usize::from(m.converged);
+        summary.biased += usize::from(matches!(m.verdict, Verdict::Biased { .. }));
         let score = m
             .final_error
             .iter()
@@ -144,6 +160,7 @@ fn tally(
             final_error: m.final_error.clone(),
             settling_step: m.settling_step,
             converged: m.converged,
+            verdict: m.verdict.label(),
             score,
         });
     }
@@ -155,6 +172,7 @@ fn merge(mut a: Vec<FormatSummary>, b: Vec<FormatSummary>) -> Vec<FormatSummary>
     for (x, y) in a.iter_mut().zip(b) {
         x.stable += y.stable;
         x.converged += y.converged;
+        x.biased += y.biased;
         x.worst.extend(y.worst);
         // Worst first; ties by run index, so the order is reproducible
         // whatever order the runs finished in.
@@ -200,4 +218,27 @@ impl Progress {
             }
         }
     }
+}
+
+/// The command that reproduces run `seed` of a sweep exactly: this
+/// process's own arguments without `--sweep`, `--seed`, `--mismatch` and
+/// `--json`, then the run's seed and the sweep's mismatch.
+pub fn rerun_command(seed: u64, mismatch: f64) -> String {
+    let mut out = vec!["lookout".to_string()];
+    let mut args = std::env::args().skip(1);
+    while let Some(a) = args.next() {
+        let name = a.split('=').next().unwrap_or("");
+        match name {
+            "--sweep" | "--seed" | "--mismatch" => {
+                if !a.contains('=') {
+                    args.next();
+                }
+            }
+            "--json" => {}
+            _ if a.is_empty() || a.contains(char::is_whitespace) => out.push(format!("'{a}'")),
+            _ => out.push(a),
+        }
+    }
+    out.push(format!("--seed {seed} --mismatch {mismatch}"));
+    out.join(" ")
 }

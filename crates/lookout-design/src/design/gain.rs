@@ -219,6 +219,7 @@ pub(super) fn gate(
     origin: &str,
     spec: &Gate,
     kalman: Option<&KalmanResult>,
+    [ad, f, cd]: [&DMatrix<f64>; 3],
 ) -> Result<GateDesign, DesignError> {
     let Some(kalman) = kalman else {
         return Err(unsupported(
@@ -258,7 +259,26 @@ pub(super) fn gate(
             "the gate probability must lie strictly between 0 and 1",
         ));
     };
+    let steady = super::recovery::Steady {
+        ad,
+        f,
+        cd,
+        qd: &kalman.process_noise,
+        p0: &kalman.p,
+        s0: s,
+    };
+    // E[ν | ν > limit] / p = P(χ²_{p+2} > limit) / P(χ²_p > limit).
+    let tail = |d: u32| probability_of_limit(d, limit).map(|q| 1.0 - q);
+    let tail_mean = match (tail(dof.saturating_add(2)), tail(dof)) {
+        (Some(wide), Some(narrow)) if narrow > 0.0 => wide / narrow,
+        // Far in the tail: E[ν | ν > c] ≈ c + 2 (common practice).
+        _ => (limit + 2.0) / f64::from(dof),
+    };
+    let (widening, per_miss) = super::recovery::table(&steady, tail_mean)
+        .map_err(numerics_error(origin, "gate recovery table"))?;
     Ok(GateDesign {
+        widening,
+        per_miss,
         channel_inv_variance: s.diagonal().iter().map(|v| 1.0 / v).collect(),
         s_inv,
         limit,
@@ -267,7 +287,7 @@ pub(super) fn gate(
 }
 
 /// The probability P(χ²_dof ≤ limit), by bisection on the quantile.
-fn probability_of_limit(dof: u32, limit: f64) -> Option<f64> {
+pub(super) fn probability_of_limit(dof: u32, limit: f64) -> Option<f64> {
     let (mut lo, mut hi) = (0.0_f64, 1.0_f64);
     for _ in 0..80 {
         let mid = 0.5 * (lo + hi);

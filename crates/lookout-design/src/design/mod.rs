@@ -26,10 +26,12 @@ mod error;
 mod finite;
 mod gain;
 mod noise;
+pub mod recovery;
 mod separability;
 mod warnings;
 
 pub use error::DesignError;
+pub use noise::steady_covariance;
 pub use warnings::Warning;
 
 use crate::model::{Domain, Form, GainSource, Model};
@@ -159,6 +161,23 @@ pub struct GateDesign {
     pub channel_inv_variance: Vec<f64>,
     /// Limit on r_j² / S_jj when channels are missing.
     pub channel_limit: f64,
+    /// g_k = λ_max(S_0⁻¹ S_k) after k = 1 … K consecutive misses (see
+    /// [`recovery::table`]); the runtime's limits after k misses are the
+    /// steady ones times g_k, and after K misses it re-acquires.
+    pub widening: Vec<f64>,
+    /// Corrections that undo one miss (see [`recovery::table`]).
+    pub per_miss: u8,
+}
+
+impl GateDesign {
+    /// The widened limits \[every channel, one channel\] after k = 1 … K
+    /// consecutive misses: the steady limits times g_k.
+    pub fn recovery_limits(&self) -> Vec<[f64; 2]> {
+        self.widening
+            .iter()
+            .map(|g| [self.limit * g, self.channel_limit * g])
+            .collect()
+    }
 }
 
 impl Design {
@@ -289,7 +308,12 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
     let output_noise_gain = noise::output_noise_gain(&designed.f, &designed.h, &cd);
     let gate = match &model.observer.gate {
         None => None,
-        Some(spec) => Some(gain::gate(origin, spec, designed.kalman.as_ref())?),
+        Some(spec) => Some(gain::gate(
+            origin,
+            spec,
+            designed.kalman.as_ref(),
+            [&ad, &designed.f, &cd],
+        )?),
     };
 
     let mut design = Design {
@@ -349,10 +373,13 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
                 .iter()
                 .map(|(k, m)| Warning::new(k.clone(), m.clone())),
         );
-        if design.gate.is_some() {
+        if design.gate.is_some() && design.p() > crate::emit::MAX_FIXED_GATE_OUTPUTS {
             early_warnings.push(Warning::new(
                 "observer.gate_probability",
-                "the fixed-point tables are emitted without the gate (not yet generated for Q tables)",
+                format!(
+                    "the fixed-point tables are emitted without the gate (generated for at most {} outputs)",
+                    crate::emit::MAX_FIXED_GATE_OUTPUTS
+                ),
             ));
         }
         design.fixed_point = Some(fixed);

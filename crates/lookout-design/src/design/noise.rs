@@ -5,6 +5,7 @@ use super::DesignError;
 use super::augment::Augmented;
 use crate::model::{Domain, KalmanSpec, Model, NoiseDomain};
 use crate::numerics;
+use crate::numerics::NumericsError;
 use nalgebra::DMatrix;
 
 /// Qd, the process noise covariance per sample: Van Loan's (1978) block
@@ -36,6 +37,39 @@ pub(super) fn process_noise_per_sample(
                 },
             )
         }
+    }
+}
+
+/// X = Σₖ Fᵏ W (Fᵏ)ᵀ, the solution of the discrete Lyapunov equation
+/// X = F X Fᵀ + W: the steady covariance of x⁺ = F x + w with cov(w) = W.
+///
+/// Summed by Smith's doubling iteration (R. A. Smith, "Matrix equation
+/// XA + BX = C", SIAM J. Appl. Math. 16, 1968): X ← X + Aᵢ X Aᵢᵀ,
+/// Aᵢ₊₁ = Aᵢ², which converges quadratically when ρ(F) < 1; it stops after
+/// 64 doublings at most. Not finite (an error) when F is not stable.
+pub fn steady_covariance(
+    f: &DMatrix<f64>,
+    w: &DMatrix<f64>,
+) -> Result<DMatrix<f64>, NumericsError> {
+    let mut x = w.clone();
+    let mut a = f.clone();
+    for _ in 0..64 {
+        let step = &a * &x * a.transpose();
+        let done = step.norm() <= f64::EPSILON * x.norm();
+        x += step;
+        if done {
+            break;
+        }
+        a = &a * &a;
+    }
+    if x.iter().all(|v| v.is_finite()) {
+        Ok(x)
+    } else {
+        Err(NumericsError::BadParameter {
+            name: "steady covariance",
+            value: f64::INFINITY,
+            condition: "finite (the error dynamics must be stable)",
+        })
     }
 }
 

@@ -30,7 +30,7 @@ fn table<'a>(tables: &'a [QuantisedTable], name: &str) -> Option<&'a QuantisedTa
 pub(super) fn header(fx: &FixedDesign, s: &mut String) {
     let _ = writeln!(
         s,
-        "// fixed point: {} (a signal v with scale exponent e is stored as round(v * 2^(F - e)))",
+        "// fixed point: {} (a signal v with scale exponent e is stored as round(v * 2^(b - e)), b the fraction bits)",
         format_name(fx.format)
     );
     let _ = writeln!(
@@ -101,6 +101,12 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
             ints(&c.exponents)
         ))
     };
+    let gate = match &d.gate {
+        Some(g) if d.p() <= super::gate::MAX_FIXED_GATE_OUTPUTS => {
+            super::gate::fixed(ty, g, &fx.output_exponents)?
+        }
+        _ => "None".to_string(),
+    };
     if !fx.form_tables.is_empty() {
         let t = &fx.form_tables;
         let (a, b) = (table(t, "a")?, table(t, "b")?);
@@ -115,7 +121,7 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
                         &format!("PREDICTOR_{suffix}"),
                         &format!("FixedPredictorTables<lookout::{ty}, N, M, P>"),
                         &format!(
-                            "lookout::FixedPredictorTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        l: {},\n        exp: {},\n        output: {},\n        gate: None,\n    }}",
+                            "lookout::FixedPredictorTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        l: {},\n        exp: {},\n        output: {},\n        gate: {gate},\n    }}",
                             qmatrix(ty, a),
                             qmatrix(ty, b),
                             qmatrix(ty, l),
@@ -135,7 +141,7 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
                         &format!("CURRENT_{suffix}"),
                         &format!("FixedCurrentTables<lookout::{ty}, N, M, P>"),
                         &format!(
-                            "lookout::FixedCurrentTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        exp: {},\n        k: {},\n        k_exp: {},\n        output: {},\n        gate: None,\n    }}",
+                            "lookout::FixedCurrentTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        exp: {},\n        k: {},\n        k_exp: {},\n        output: {},\n        gate: {gate},\n    }}",
                             qmatrix(ty, a),
                             qmatrix(ty, b),
                             ints(&a.exponents),
@@ -158,7 +164,7 @@ pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
             &format!("FUSED_{suffix}"),
             &format!("FixedFusedTables<lookout::{ty}, N, M, P>"),
             &format!(
-                "lookout::FixedFusedTables {{\n        scales: SCALES,\n        f: {},\n        g: {},\n        h: {},\n        exp: {},\n        output: {},\n        gate: None,\n    }}",
+                "lookout::FixedFusedTables {{\n        scales: SCALES,\n        f: {},\n        g: {},\n        h: {},\n        exp: {},\n        output: {},\n        gate: {gate},\n    }}",
                 qmatrix(ty, f),
                 qmatrix(ty, table(t, "g")?),
                 qmatrix(ty, table(t, "h")?),

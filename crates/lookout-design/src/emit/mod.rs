@@ -8,9 +8,11 @@
 
 mod file;
 mod fixed;
+mod gate;
 mod literal;
 
 pub use file::{Written, read_limited, read_text_limited, write_file};
+pub use gate::MAX_FIXED_GATE_OUTPUTS;
 pub use literal::Scalar;
 
 use crate::design::{Design, DesignError, design_file};
@@ -142,13 +144,7 @@ fn source(d: &Design, scalar: Scalar) -> Option<String> {
 
     let gate = match &d.gate {
         None => "None".to_string(),
-        Some(g) => format!(
-            "Some(lookout::Gate {{ s_inv: {}, limit: {}, channel_inv_variance: {}, channel_limit: {} }})",
-            matrix(scalar, &g.s_inv)?,
-            scalar.literal(g.limit)?,
-            literal::list(scalar, g.channel_inv_variance.iter().copied())?,
-            scalar.literal(g.channel_limit)?,
-        ),
+        Some(g) => gate::float(scalar, g)?,
     };
     let plant_item = format!(
         "lookout::Plant {{\n        a: {},\n        b: {},\n        c: {},\n        d: {},\n    }}",

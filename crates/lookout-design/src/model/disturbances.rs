@@ -42,8 +42,8 @@ use super::reader::{Dim, Node, Table};
 
 /// Keys allowed in `[disturbances]`.
 pub(crate) const KEYS: &[&str] = &["input", "output_bias"];
-const INPUT_KEYS: &[&str] = &["name", "input", "column", "shape", "noise"];
-const BIAS_KEYS: &[&str] = &["name", "output", "noise"];
+const INPUT_KEYS: &[&str] = &["name", "input", "column", "shape", "noise", "unit"];
+const BIAS_KEYS: &[&str] = &["name", "output", "noise", "unit"];
 
 /// How a disturbance entering the plant evolves.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Default)]
@@ -75,6 +75,9 @@ pub struct InputDisturbance {
     pub shape: Shape,
     /// Driving-noise level for a Kalman design.
     pub noise: Option<f64>,
+    /// Unit of the disturbance (free text, `unit = "N m"`); without one, the
+    /// input's unit for `input = k`, else none.
+    pub unit: Option<String>,
 }
 
 /// A constant bias on one output, y = C x + D u + b.
@@ -86,6 +89,8 @@ pub struct OutputBias {
     pub output: usize,
     /// Driving-noise level for a Kalman design.
     pub noise: Option<f64>,
+    /// Unit of the bias (free text); without one, the output's unit.
+    pub unit: Option<String>,
 }
 
 /// The disturbance states added to the plant, in state order.
@@ -120,6 +125,41 @@ impl Disturbances {
             .flat_map(InputDisturbance::state_names)
             .chain(self.output_bias.iter().map(|b| b.name.clone()))
             .collect()
+    }
+
+    /// Unit of every disturbance state, in state order ("" where none is
+    /// known): the `unit` key, else the unit of the input it adds to or of
+    /// the output it biases; a ramp's rate is in that unit per second.
+    pub fn state_units(&self, plant: &Plant) -> Vec<String> {
+        let pick = |given: &Option<String>, list: &Option<Vec<String>>, index: Option<usize>| {
+            given.clone().unwrap_or_else(|| {
+                index
+                    .and_then(|i| list.as_ref().and_then(|l| l.get(i).cloned()))
+                    .unwrap_or_default()
+            })
+        };
+        let mut out = Vec::new();
+        for d in &self.input {
+            let index = match d.entry {
+                Entry::Input(k) => Some(k),
+                Entry::Column(_) => None,
+            };
+            let unit = pick(&d.unit, &plant.input_units, index);
+            if d.shape == Shape::Ramp {
+                let rate = if unit.is_empty() {
+                    "1/s".to_string()
+                } else {
+                    format!("{unit}/s")
+                };
+                out.extend([unit, rate]);
+            } else {
+                out.push(unit);
+            }
+        }
+        for b in &self.output_bias {
+            out.push(pick(&b.unit, &plant.output_units, Some(b.output)));
+        }
+        out
     }
 
     /// One line per disturbance state saying what it is, in state order.
@@ -186,6 +226,7 @@ pub(crate) fn read(
                 name,
                 output,
                 noise,
+                unit: read_unit(&entry_table)?,
             });
         }
     }
@@ -257,7 +298,16 @@ fn read_input(
         entry,
         shape,
         noise,
+        unit: read_unit(table)?,
     })
+}
+
+/// The optional `unit` key: free text for reports.
+fn read_unit(table: &Table<'_, '_>) -> Result<Option<String>, ModelError> {
+    table
+        .get("unit")
+        .map(|node| node.string().map(str::to_string))
+        .transpose()
 }
 
 fn read_identifier(node: &Node<'_, '_>) -> Result<String, ModelError> {

@@ -54,6 +54,7 @@
 //! # column = [0.0, -1587.3]    # E, n entries; or input = 0 (adds to that input)
 //! # shape = "constant"         # or "ramp" (adds the state `load_torque_rate`)
 //! # noise = 1.0e-4             # driving-noise level, Kalman designs only
+//! # unit = "N m"               # for reports; default the input's (output's) unit
 //! # [[disturbances.output_bias]]
 //! # name = "encoder_offset"
 //! # output = 0
@@ -247,6 +248,20 @@ impl Model {
             names.extend(d.state_names());
         }
         names
+    }
+
+    /// Unit of every estimated state ("" where the model gives none): the
+    /// plant's `state_units`, then the disturbance states' (see
+    /// [`Disturbances::state_units`](disturbances::Disturbances::state_units)).
+    pub fn state_units(&self) -> Vec<String> {
+        let plant = self.plant.state_units.clone().unwrap_or_default();
+        let mut units: Vec<String> = (0..self.plant.n())
+            .map(|i| plant.get(i).cloned().unwrap_or_default())
+            .collect();
+        if let Some(d) = &self.disturbances {
+            units.extend(d.state_units(&self.plant));
+        }
+        units
     }
 
     /// [`Model::name`] as a Rust identifier: '-' mapped to '_'.

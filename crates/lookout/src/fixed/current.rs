@@ -5,7 +5,8 @@ use super::format::{Fixed, Wide};
 use super::headroom::Proven;
 use super::measurement::{initial_status, innovation};
 use super::tables::FixedCurrentTables;
-use crate::{ChannelMask, Status};
+use crate::gate::misses_after;
+use crate::{ChannelMask, Outcome, Status};
 use core::marker::PhantomData;
 
 /// Discrete current-form observer (e.g. steady-state Kalman filter) in Q15
@@ -52,6 +53,8 @@ pub struct FixedCurrentObserver<
     r: [Q; P],
     /// The status of a `correct` not yet followed by `predict`.
     pending: Option<Status>,
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 constructors!(
@@ -73,6 +76,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
             initial: x0,
             r: [Q::ZERO; P],
             pending: None,
+            misses: 0,
         }
     }
 
@@ -97,7 +101,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
         let mut sat = Saturations::default();
         let (r, mut status) = innovation::<K, Q, N, M, P>(
             &t.output,
-            t.gate.as_ref(),
+            t.gate.as_ref().map(|g| (g, &mut self.misses)),
             &self.predicted,
             u,
             y,
@@ -129,6 +133,11 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
             None => {
                 self.filtered = self.predicted;
                 self.r = [Q::ZERO; P];
+                self.misses = misses_after(
+                    self.tables.gate.as_ref().map(|g| &g.recovery),
+                    self.misses,
+                    Outcome::PredictedOnly,
+                );
                 initial_status::<P>(ChannelMask::NONE).1
             }
         };
@@ -168,6 +177,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
         self.predicted = x;
         self.filtered = x;
         self.pending = None;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the

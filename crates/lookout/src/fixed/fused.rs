@@ -42,6 +42,8 @@ pub struct FixedFusedObserver<
     initial: [Q; N],
     r: [Q; P],
     kernel: PhantomData<K>,
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 constructors!(
@@ -62,6 +64,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
             initial: x0,
             r: [Q::ZERO; P],
             kernel: PhantomData,
+            misses: 0,
         }
     }
 
@@ -117,13 +120,14 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
                     *rj = sat.store(yj.widen().sat_sub(pj));
                 }
             }
-            let rejected = present.is_empty() || !gate.accepts(&r, present);
+            status.outcome = if present.is_empty() {
+                Outcome::PredictedOnly
+            } else {
+                gate.judge(&r, present, self.misses).outcome()
+            };
+            self.misses = gate.recovery.count_after(self.misses, status.outcome);
+            let rejected = !status.corrected();
             if rejected {
-                status.outcome = if present.is_empty() {
-                    Outcome::PredictedOnly
-                } else {
-                    Outcome::Gated
-                };
                 status.used = ChannelMask::NONE;
                 r = [Q::ZERO; P];
             }
@@ -168,6 +172,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
     /// Replaces the estimate.
     pub fn set_state(&mut self, x: [Q; N]) {
         self.x = x;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the
@@ -175,6 +180,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
     pub fn reset(&mut self) {
         self.x = self.initial;
         self.r = [Q::ZERO; P];
+        self.misses = 0;
     }
 
     /// The tables the observer runs on.

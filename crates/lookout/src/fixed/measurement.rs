@@ -43,7 +43,8 @@ pub(crate) fn initial_status<const P: usize>(requested: ChannelMask) -> (Channel
 
 /// The innovation r = y − ŷ on the channels that correct the estimate (zero
 /// on the others), each element rounded once and stored saturating, and the
-/// status saying which channels those are.
+/// status saying which channels those are; `gate` comes with the observer's
+/// counter of misses, which it updates (see [`Recovery`](crate::Recovery)).
 pub(crate) fn innovation<
     K: Accumulation,
     Q: Fixed,
@@ -52,7 +53,25 @@ pub(crate) fn innovation<
     const P: usize,
 >(
     out: &FixedOutputMap<Q, N, M, P>,
-    gate: Option<&FixedGate<Q, P>>,
+    gate: Option<(&FixedGate<Q, P>, &mut u16)>,
+    x: &[Q; N],
+    u: &[Q; M],
+    y: &[Q; P],
+    requested: ChannelMask,
+    sat: &mut Saturations,
+) -> ([Q; P], Status) {
+    let judged = gate.as_ref().map(|(g, count)| (*g, **count));
+    let result = tested::<K, Q, N, M, P>(out, judged, x, u, y, requested, sat);
+    if let Some((g, count)) = gate {
+        *count = g.recovery.count_after(*count, result.1.outcome);
+    }
+    result
+}
+
+#[inline(always)]
+fn tested<K: Accumulation, Q: Fixed, const N: usize, const M: usize, const P: usize>(
+    out: &FixedOutputMap<Q, N, M, P>,
+    gate: Option<(&FixedGate<Q, P>, u16)>,
     x: &[Q; N],
     u: &[Q; M],
     y: &[Q; P],
@@ -70,11 +89,13 @@ pub(crate) fn innovation<
             *rj = sat.store(yj.widen().sat_sub(pj));
         }
     }
-    if gate.is_some_and(|g| !g.accepts(&r, present)) {
-        status.outcome = Outcome::Gated;
-        return ([Q::ZERO; P], status);
-    }
     status.outcome = Outcome::Corrected;
+    if let Some((g, misses)) = gate {
+        status.outcome = g.judge(&r, present, misses).outcome();
+        if status.outcome == Outcome::Gated {
+            return ([Q::ZERO; P], status);
+        }
+    }
     status.used = present;
     (r, status)
 }

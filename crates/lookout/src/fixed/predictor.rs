@@ -51,6 +51,8 @@ pub struct FixedPredictorObserver<
     x: [Q; N],
     initial: [Q; N],
     r: [Q; P],
+    /// Consecutive samples without a correction (the gate's recovery stage).
+    misses: u16,
 }
 
 constructors!(
@@ -71,6 +73,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
             x: x0,
             initial: x0,
             r: [Q::ZERO; P],
+            misses: 0,
         }
     }
 
@@ -83,8 +86,15 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
     pub fn step_masked(&mut self, u: &[Q; M], y: &[Q; P], valid: ChannelMask) -> Status {
         let t = self.tables;
         let mut sat = Saturations::default();
-        let (r, mut status) =
-            innovation::<K, Q, N, M, P>(&t.output, t.gate.as_ref(), &self.x, u, y, valid, &mut sat);
+        let (r, mut status) = innovation::<K, Q, N, M, P>(
+            &t.output,
+            t.gate.as_ref().map(|g| (g, &mut self.misses)),
+            &self.x,
+            u,
+            y,
+            valid,
+            &mut sat,
+        );
         let mut acc = [<Q::Acc as Wide>::ZERO; N];
         K::mul_acc(&t.a, &self.x, &mut acc);
         K::mul_acc(&t.b, u, &mut acc);
@@ -115,6 +125,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
     /// Replaces the estimate.
     pub fn set_state(&mut self, x: [Q; N]) {
         self.x = x;
+        self.misses = 0;
     }
 
     /// Returns to the estimate given to [`new`](Self::new) and clears the
@@ -122,6 +133,7 @@ impl<'t, Q: Fixed, const N: usize, const M: usize, const P: usize, K: Accumulati
     pub fn reset(&mut self) {
         self.x = self.initial;
         self.r = [Q::ZERO; P];
+        self.misses = 0;
     }
 
     /// The tables the observer runs on.

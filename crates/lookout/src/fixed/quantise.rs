@@ -13,7 +13,7 @@ use super::format::{Fixed, Wide};
 use super::tables::{
     FixedCurrentTables, FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorTables, Scales,
 };
-use crate::{CurrentTables, FusedTables, Gate, Matrix, Plant, PredictorTables};
+use crate::{CurrentTables, FusedTables, Gate, Matrix, Plant, PredictorTables, Recovery};
 
 impl<Q: Fixed, const N: usize, const M: usize, const P: usize> FixedOutputMap<Q, N, M, P> {
     /// C and D in Q form, with one exponent per output row of [C D].
@@ -78,11 +78,22 @@ impl<Q: Fixed, const P: usize> FixedGate<Q, P> {
             index,
             value,
         };
-        let largest = gate.limit.max(gate.channel_limit);
-        for (index, value) in [gate.limit, gate.channel_limit].into_iter().enumerate() {
+        let stages = gate
+            .recovery
+            .limits
+            .iter()
+            .take(usize::from(gate.recovery.stages));
+        let widened = stages.clone().flat_map(|pair| pair.iter().copied());
+        let mut largest = 0.0_f64;
+        for (index, value) in [gate.limit, gate.channel_limit]
+            .into_iter()
+            .chain(widened)
+            .enumerate()
+        {
             if !(value.is_finite() && value >= 0.0) {
                 return Err(bad(index, value));
             }
+            largest = largest.max(value);
         }
         let z = (-31i8..=31)
             .find(|&g| largest <= pow2(i32::from(g).saturating_mul(2)))
@@ -133,6 +144,9 @@ impl<Q: Fixed, const P: usize> FixedGate<Q, P> {
             limit: wide_floor(gate.limit, unit).ok_or(bad(0, gate.limit))?,
             channel_limit: wide_floor(gate.channel_limit, unit)
                 .ok_or(bad(1, gate.channel_limit))?,
+            recovery: recovery_limits(&gate.recovery, <Q::Acc as Wide>::ZERO, |v| {
+                wide_floor(v, unit).ok_or(bad(2, v))
+            })?,
         })
     }
 
@@ -163,13 +177,37 @@ impl<Q: Fixed, const P: usize> FixedGate<Q, P> {
         let f = frac::<Q>();
         let z = i32::from(self.z_exp);
         let unit = exponent_sum(&[z, z], &[f, f]);
+        let value = |v: Q::Acc| libm::scalbn(v.to_i64() as f64, unit);
         Gate {
             s_inv: Matrix::from_rows(s_inv),
-            limit: libm::scalbn(self.limit.to_i64() as f64, unit),
+            limit: value(self.limit),
             channel_inv_variance,
-            channel_limit: libm::scalbn(self.channel_limit.to_i64() as f64, unit),
+            channel_limit: value(self.channel_limit),
+            recovery: recovery_limits(&self.recovery, 0.0, |v| Ok::<_, ConvertError>(value(v)))
+                .unwrap_or(Recovery::none(0.0)),
         }
     }
+}
+
+/// The recovery table with every used limit mapped by `f` (unused entries
+/// zero).
+fn recovery_limits<A: Copy, B: Copy, E>(
+    from: &Recovery<A>,
+    zero: B,
+    f: impl Fn(A) -> Result<B, E>,
+) -> Result<Recovery<B>, E> {
+    let mut to = Recovery::none(zero);
+    to.stages = from.stages;
+    to.per_miss = from.per_miss;
+    for (t, s) in to
+        .limits
+        .iter_mut()
+        .zip(from.limits.iter())
+        .take(usize::from(from.stages))
+    {
+        *t = [f(s[0])?, f(s[1])?];
+    }
+    Ok(to)
 }
 
 /// The float value of a one-entry table: q · 2^(e − F + s_out − s_in).

@@ -6,7 +6,7 @@
 //! row exponent, `to_float` gives back exactly the tables they stand for.
 
 use super::format::Fixed;
-use crate::Matrix;
+use crate::{Matrix, Recovery};
 
 /// The power-of-two scale exponent of every signal: |v| < 2^s in the
 /// signal's unit. The steps do not read these (the table entries already
@@ -66,6 +66,9 @@ pub struct FixedGate<Q: Fixed, const P: usize> {
     pub limit: Q::Acc,
     /// Largest accepted z_j² when some channels are missing, same units.
     pub channel_limit: Q::Acc,
+    /// The widened limits after consecutive misses, same units (the rule
+    /// of [`Recovery`]; `z_exp` is chosen so that the widest fits).
+    pub recovery: Recovery<Q::Acc>,
 }
 
 /// Tables of the fixed-point predictor observer (see
