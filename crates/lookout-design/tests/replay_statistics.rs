@@ -252,7 +252,8 @@ fn nis_interval_is_the_chi_square_one() {
         values,
     };
     let s = summarise(&e, Some(&DMatrix::from_element(1, 1, 1.0)), 0.95).unwrap();
-    let (lo, hi) = s.nis_interval.unwrap();
+    let nis = s.nis.unwrap();
+    let (lo, hi) = (nis.low, nis.high);
     assert!(
         (lo * 100.0 - 74.22).abs() < 0.01 && (hi * 100.0 - 129.56).abs() < 0.01,
         "{lo} {hi}"

@@ -132,8 +132,8 @@ fn format_text(s: &mut String, r: &Replay, f: &FormatReplay) {
                 LEVEL * 100.0
             );
         }
-        if let (Some(nis), Some((lo, hi))) = (sum.mean_nis, sum.nis_interval) {
-            let ok = sum.nis_consistent() == Some(true);
+        if let Some(i) = sum.nis {
+            let (nis, lo, hi, ok) = (i.value, i.low, i.high, i.holds());
             let _ = writeln!(
                 s,
                 "  time-averaged NIS {nis:.4} (p = {}), {:.0} % chi-square interval [{lo:.4}, {hi:.4}]: {}",
@@ -275,8 +275,8 @@ fn format_json(f: &FormatReplay) -> Value {
             "mean_half_width": s.mean_half_width,
             "covariance": matrix_json(&s.covariance),
             "variance_interval": s.variance_interval.iter().map(|(a, b)| [a, b]).collect::<Vec<_>>(),
-            "mean_nis": s.mean_nis,
-            "nis_interval": s.nis_interval.map(|(a, b)| [a, b]),
+            "mean_nis": s.nis.map(|i| i.value),
+            "nis_interval": s.nis.map(|i| [i.low, i.high]),
             "nis_consistent": s.nis_consistent(),
         })
     });

@@ -14,6 +14,7 @@
 //!   s_jj², so S_jj lies in [(N−1)s²/χ²_hi, (N−1)s²/χ²_lo];
 //! * N times the time-averaged NIS eᵀ S⁻¹ e is χ²(N·p).
 
+use super::interval::Interval;
 use nalgebra::{DMatrix, DVector};
 
 /// An innovation sequence: p values per sample, row-major, and whether each
@@ -75,10 +76,9 @@ pub struct InnovationSummary {
     /// Interval per channel that contains the true variance at `level`,
     /// from the sample variance.
     pub variance_interval: Vec<(f64, f64)>,
-    /// Time-averaged NIS with the predicted S; `None` without it.
-    pub mean_nis: Option<f64>,
-    /// Interval the time-averaged NIS of a consistent observer lies in.
-    pub nis_interval: Option<(f64, f64)>,
+    /// Time-averaged NIS with the predicted S and the interval a consistent
+    /// observer's lies in; `None` without S.
+    pub nis: Option<Interval>,
 }
 
 impl InnovationSummary {
@@ -102,9 +102,7 @@ impl InnovationSummary {
 
     /// Whether the NIS lies inside its interval (`None` without S).
     pub fn nis_consistent(&self) -> Option<bool> {
-        let (lo, hi) = self.nis_interval?;
-        let v = self.mean_nis?;
-        Some(v >= lo && v <= hi)
+        self.nis.map(|i| i.holds())
     }
 }
 
@@ -142,18 +140,16 @@ pub fn summarise(
     let mean_half_width = (0..p)
         .map(|j| z * (covariance[(j, j)] / nf).sqrt())
         .collect();
-    let (mean_nis, nis_interval) = match predicted {
-        None => (None, None),
+    let nis = match predicted {
+        None => None,
         Some(s) => {
             let s_inv = s.clone().try_inverse()?;
-            let nis = rows
+            let mean = rows
                 .iter()
                 .map(|r| (r.transpose() * &s_inv * r)[(0, 0)])
                 .sum::<f64>()
                 / nf;
-            let dof = u32::try_from(n.checked_mul(p)?).ok()?;
-            let (a, b) = super::chi_square_interval(dof, level)?;
-            (Some(nis), Some((a / nf, b / nf)))
+            Some(Interval::chi_square(mean, n, p, level)?)
         }
     };
     Some(InnovationSummary {
@@ -163,7 +159,6 @@ pub fn summarise(
         mean_half_width,
         covariance,
         variance_interval,
-        mean_nis,
-        nis_interval,
+        nis,
     })
 }

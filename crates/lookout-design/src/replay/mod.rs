@@ -15,11 +15,13 @@
 
 pub mod als;
 pub mod innovation;
+pub mod interval;
 pub mod noise_map;
 pub mod whiteness;
 
 pub use als::{AlsEstimate, AlsProblem, Determined, estimate_noise};
 pub use innovation::{InnovationSummary, Innovations, summarise};
+pub use interval::Interval;
 pub use noise_map::{NoiseMap, noise_map};
 pub use whiteness::{Whiteness, autocovariances, whiteness};
 
