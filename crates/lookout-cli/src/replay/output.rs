@@ -228,11 +228,12 @@ pub fn text(design: &Design, log: &Path, r: &Replay) -> String {
         Some(Ok(est)) => {
             let _ = writeln!(
                 s,
-                "  {} samples, lags 0..{}; column rank {} of {} ({})",
+                "  {} samples, lags 0..{}; column rank {} of {}, condition {:.2e} ({})",
                 est.samples,
                 r.lags - 1,
                 est.rank.0,
                 est.rank.1,
+                est.condition,
                 if est.rank.0 == est.rank.1 {
                     "every entry is determined"
                 } else {
@@ -297,6 +298,7 @@ fn format_json(f: &FormatReplay) -> Value {
             "samples": est.samples,
             "rank": est.rank.0,
             "columns": est.rank.1,
+            "condition": est.condition,
             "process_noise_entries": entries_json(&est.q_entries),
             "measurement_noise_entries": entries_json(&est.r_entries),
             "process_noise": est.q.as_ref().map(matrix_json),

@@ -74,6 +74,10 @@ pub struct AlsEstimate {
     pub clipped: bool,
     /// Column rank of 𝒜 and its number of columns.
     pub rank: (usize, usize),
+    /// σ_max/σ_min of 𝒜 over its nonzero singular values (the columns are
+    /// not scaled): how much the sampling error of the autocovariances can
+    /// be amplified in the entries.
+    pub condition: f64,
     /// Samples behind Ĉ_0.
     pub samples: usize,
 }
@@ -155,6 +159,13 @@ pub fn estimate_noise(pb: &AlsProblem<'_>, e: &Innovations) -> Option<AlsEstimat
     // Rank tolerance: max(rows, cols) · ε · σ_max (common practice).
     let tol = b.len().max(cols) as f64 * f64::EPSILON * largest;
     let rank = svd.singular_values.iter().filter(|&&s| s > tol).count();
+    let smallest = svd
+        .singular_values
+        .iter()
+        .copied()
+        .filter(|&s| s > tol)
+        .fold(f64::INFINITY, f64::min);
+    let condition = largest / smallest;
     let theta = svd.solve(&b, tol).ok()?;
     let v_t = svd.v_t.as_ref()?;
     // Rows of Vᵀ beyond the rank span the null space (sorted singular values
@@ -197,6 +208,7 @@ pub fn estimate_noise(pb: &AlsProblem<'_>, e: &Innovations) -> Option<AlsEstimat
         r,
         clipped: qc || rc,
         rank: (rank, cols),
+        condition,
         samples: pairs.first().copied().unwrap_or(0),
     })
 }
