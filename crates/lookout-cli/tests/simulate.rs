@@ -83,8 +83,9 @@ fn f64_errors(path: &PathBuf, names: &[&str]) -> Vec<Vec<f64>> {
         .collect();
     lines
         .map(|l| {
-            let cells: Vec<f64> = l.split(',').map(|c| c.parse().unwrap()).collect();
-            cols.iter().map(|&c| cells[c]).collect()
+            // Only the wanted cells: the log columns of the last row are empty.
+            let cells: Vec<&str> = l.split(',').collect();
+            cols.iter().map(|&c| cells[c].parse().unwrap()).collect()
         })
         .collect()
 }

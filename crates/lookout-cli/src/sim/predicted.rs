@@ -4,6 +4,7 @@
 
 use super::RunResult;
 use super::metrics::Metrics;
+use super::plant::Trajectory;
 use super::runtime::{Format, FormatRun};
 use lookout_design::Design;
 use lookout_design::fixed_point::{Deviation, FormKind, NumberKind, accuracy::model_form_of};
@@ -55,34 +56,9 @@ pub fn design_deviation(design: &Design, format: Format) -> Option<&Deviation> {
 
 /// The check of `run` (`None` for f64 or without `[fixed_point]`).
 pub fn check(design: &Design, r: &RunResult, run: &FormatRun, m: &Metrics) -> Option<Check> {
-    let fx = design.fixed_point.as_ref()?;
-    if run.format == Format::F64 {
-        return None;
-    }
-    let this = design_deviation(design, run.format)?;
-    let reference = design_deviation(design, Format::F64)?;
-    if this.refused.is_some() || reference.refused.is_some() {
-        return None;
-    }
-    let bound: Vec<f64> = this
-        .total
-        .iter()
-        .zip(&reference.total)
-        .map(|(a, b)| a + b)
-        .collect();
+    let bound = bound(design, run.format)?;
     let f64_run = r.formats.first().map(|(f, _)| f);
-    let not_covered = if run.saturations > 0 {
-        Some("the run saturated".to_string())
-    } else if r.traj.dropped > 0 || run.gated > 0 {
-        Some("readings were dropped or gated (the estimate then runs open loop)".to_string())
-    } else if outside(&r.traj.u, r.traj.m, &fx.input_exponents)
-        || outside(&r.traj.y, r.traj.p, &fx.output_exponents)
-        || f64_run.is_some_and(|f| outside(&f.estimate, r.traj.n, &fx.state_exponents))
-    {
-        Some("a signal left its scale".to_string())
-    } else {
-        None
-    };
+    let not_covered = not_covered(design, &r.traj, run, f64_run);
     let exceeded = not_covered.is_none()
         && m.max_deviation_from_f64
             .iter()
@@ -93,6 +69,49 @@ pub fn check(design: &Design, r: &RunResult, run: &FormatRun, m: &Metrics) -> Op
         not_covered,
         exceeded,
     })
+}
+
+/// The design's bound on |x̂ − x̂_f64| per state for `format`: its deviation
+/// from the exact observer plus the f64 observer's (`None` for f64, without
+/// `[fixed_point]`, or where the analysis refused).
+pub fn bound(design: &Design, format: Format) -> Option<Vec<f64>> {
+    if format == Format::F64 {
+        return None;
+    }
+    let this = design_deviation(design, format)?;
+    let reference = design_deviation(design, Format::F64)?;
+    if this.refused.is_some() || reference.refused.is_some() {
+        return None;
+    }
+    Some(
+        this.total
+            .iter()
+            .zip(&reference.total)
+            .map(|(a, b)| a + b)
+            .collect(),
+    )
+}
+
+/// Why the bound does not cover `run` over `traj`, if so.
+pub fn not_covered(
+    design: &Design,
+    traj: &Trajectory,
+    run: &FormatRun,
+    f64_run: Option<&FormatRun>,
+) -> Option<String> {
+    let fx = design.fixed_point.as_ref()?;
+    if run.saturations > 0 {
+        Some("the run saturated".to_string())
+    } else if traj.dropped > 0 || run.gated > 0 {
+        Some("readings were dropped or gated (the estimate then runs open loop)".to_string())
+    } else if outside(&traj.u, traj.m, &fx.input_exponents)
+        || outside(&traj.y, traj.p, &fx.output_exponents)
+        || f64_run.is_some_and(|f| outside(&f.estimate, traj.n, &fx.state_exponents))
+    {
+        Some("a signal left its scale".to_string())
+    } else {
+        None
+    }
 }
 
 impl Check {
