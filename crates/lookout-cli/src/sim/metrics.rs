@@ -5,7 +5,7 @@ use super::options::SimOptions;
 use super::plant::Trajectory;
 use super::predicted;
 use super::reference::{Reference, test_confidence};
-use super::runtime::FormatRun;
+use super::runtime::{Format, FormatRun};
 use super::verdict::{Interval, Verdict, mean_within, normal_quantile};
 use lookout_design::Design;
 use lookout_design::fixed_point::accuracy::float_deviation;
@@ -115,12 +115,13 @@ pub fn deviation(
     run: &FormatRun,
     reference_run: &FormatRun,
 ) -> Vec<f64> {
-    let found = match predicted::design_deviation(design, run.format) {
-        Some(d) => Some(d.clone()),
-        None if design.fixed_point.is_none() => {
-            run_peak_deviation(design, traj, run, reference_run)
-        }
-        None => None,
+    // A float step never saturates, so the bound at this run's own signal
+    // peaks is proven for the run and far tighter than the design's at the
+    // full scales (which would hide a real bias in the band); a Q step is
+    // bounded at its scales, which it cannot leave without saturating.
+    let found = match run.format {
+        Format::F64 | Format::F32 => run_peak_deviation(design, traj, run, reference_run),
+        _ => predicted::design_deviation(design, run.format).cloned(),
     };
     match found {
         Some(d) if d.refused.is_none() => d.total,
@@ -131,14 +132,15 @@ pub fn deviation(
 /// Where [`deviation`] comes from, for the report.
 pub fn deviation_source(design: &Design) -> String {
     let form = predicted::simulated_form(design).name();
+    let float = format!(
+        "for f64 and f32 the design's float deviation bound of the {form} form (as in format_accuracy: Higham's γ per dot product through the ℓ1 impulse response of the stored error dynamics) at this run's signal peaks, proven for the run while every reading is used"
+    );
     if design.fixed_point.is_some() {
         format!(
-            "the design's proven deviation of the {form} form in that format from the exact observer (format_accuracy in `lookout design --json`; proven while every reading is used, no signal leaves its scale and nothing saturates)"
+            "{float}; for Q formats the design's proven deviation of the {form} form at the scales (format_accuracy in `lookout design --json`; proven while every reading is used, no signal leaves its scale and nothing saturates)"
         )
     } else {
-        format!(
-            "the design's float deviation bound for the {form} form (as in format_accuracy: Higham's γ per dot product through the ℓ1 impulse response of the stored error dynamics) with this run's signal peaks in place of the scales a [fixed_point] section would give; proven while every reading is used"
-        )
+        float
     }
 }
 
