@@ -1,0 +1,306 @@
+//! The state-feedback core of observer placement: J. Kautsky, N. K. Nichols
+//! and P. Van Dooren, "Robust pole assignment in linear state feedback",
+//! Int. J. Control 41(5), 1985, method 0, for `A − B K` (the dual pair).
+//!
+//! Cost. The bases `Sⱼ = null(U₁ᵀ (A − λⱼ I))` take one QR of an
+//! `n × (n − m)` matrix per pole (`U₁ᵀ A` is formed once): O(n³) per pole,
+//! O(n⁴) in all, and O(n² m) memory for the bases, as in KNV. A sweep is
+//! O(n³) whatever m: the vectors orthogonal to all columns of the real
+//! eigenvector matrix `T` but the ones being replaced are the matching rows
+//! of `T⁻¹` (common practice: `T⁻¹ T = I`), and `T⁻¹` follows each column
+//! replacement by the Sherman–Morrison–Woodbury formula (M. A. Woodbury,
+//! "Inverting modified matrices", Memorandum Report 42, Princeton, 1950;
+//! J. Sherman and W. J. Morrison, Ann. Math. Statist. 21, 1950), O(n²) per
+//! pole instead of a QR of the other n − 1 columns (O(n³) per pole). `T⁻¹` is
+//! refactored at the start of every sweep so rounding does not accumulate.
+//!
+//! With as many inputs as states (`m = n`, the dual of measuring every
+//! state) every `Sⱼ` is the whole space and KNV's optimum is reached without
+//! a sweep: unit orthogonal eigenvectors (`T = I` in real form) have
+//! `|det T| = 1`, the largest any unit-column matrix has (Hadamard's
+//! inequality), so `A − B K = Λ` (real block form) and
+//! `K = Z⁻¹ U₀ᵀ (A − Λ)`, O(n³) in all.
+
+use super::checks;
+use super::error::{NumericsError, Result};
+use super::place::Pole;
+use super::subspace::{complement, null_space};
+use nalgebra::{Complex, DMatrix};
+
+type C64 = Complex<f64>;
+
+/// A gain with the conditioning of its closed-loop eigenvectors.
+pub(super) struct Feedback {
+    pub(super) k: DMatrix<f64>,
+    pub(super) condition: f64,
+    pub(super) sweeps: usize,
+}
+
+fn to_c(m: &DMatrix<f64>) -> DMatrix<C64> {
+    m.map(|v| C64::new(v, 0.0))
+}
+
+/// The columns a pole owns in the real form: `[j]` for a real pole,
+/// `[j, j̄]` for the leader of a pair, none for the conjugate member.
+fn owned_columns(j: usize, pl: &Pole, n: usize) -> Vec<usize> {
+    if !pl.leads() {
+        return Vec::new();
+    }
+    match pl.partner {
+        Some(jj) if pl.value.im > 0.0 && jj < n => vec![j, jj],
+        _ => vec![j],
+    }
+}
+
+/// Writes `x` (the eigenvector of pole j) into the real form `t`: `xⱼ` for a
+/// real pole, `Re xⱼ` at j and `Im xⱼ` at j̄ for a pair.
+fn set_real_columns(t: &mut DMatrix<f64>, cols: &[usize], x: &DMatrix<C64>) {
+    if let Some(&j) = cols.first() {
+        t.set_column(j, &x.column(0).map(|v| v.re));
+    }
+    if let Some(&jj) = cols.get(1) {
+        t.set_column(jj, &x.column(0).map(|v| v.im));
+    }
+}
+
+/// Real block-diagonal `Λ` matching the real form: `λ` for a real pole,
+/// `[[α, β], [−β, α]]` on rows/columns (j, j̄) for `α ± iβ`, so that `M T = T Λ`.
+fn real_lambda(poles: &[Pole]) -> DMatrix<f64> {
+    let n = poles.len();
+    let mut lam = DMatrix::<f64>::zeros(n, n);
+    for (j, pl) in poles.iter().enumerate() {
+        if pl.value.im == 0.0 {
+            lam[(j, j)] = pl.value.re;
+        } else if let (true, Some(jj)) = (pl.leads(), pl.partner)
+            && jj < n
+        {
+            let (al, be) = (pl.value.re, pl.value.im);
+            lam[(j, j)] = al;
+            lam[(j, jj)] = be;
+            lam[(jj, j)] = -be;
+            lam[(jj, jj)] = al;
+        }
+    }
+    lam
+}
+
+/// `Sⱼ` for every leading pole (none stored for a conjugate member, which
+/// uses the conjugate of its leader's basis).
+fn bases(a: &DMatrix<f64>, u1t: &DMatrix<f64>, poles: &[Pole]) -> Vec<DMatrix<C64>> {
+    let u1ta = u1t * a;
+    poles
+        .iter()
+        .map(|pl| {
+            if !pl.leads() {
+                DMatrix::zeros(0, 0)
+            } else if pl.value.im == 0.0 {
+                to_c(&null_space(&(&u1ta - u1t * pl.value.re)))
+            } else {
+                null_space(&(to_c(&u1ta) - to_c(u1t) * pl.value))
+            }
+        })
+        .collect()
+}
+
+/// Starting real form: basis vector `occurrence mod m` of each `Sⱼ` for a
+/// real pole; for a complex leader, `(s_a + i s_b)/√2` from two basis
+/// vectors so that Re x and Im x are independent even when Sⱼ happens to be real.
+fn start(n: usize, poles: &[Pole], bases: &[DMatrix<C64>]) -> DMatrix<f64> {
+    let mut t = DMatrix::<f64>::zeros(n, n);
+    for (j, (pl, s)) in poles.iter().zip(bases).enumerate() {
+        let k = s.ncols();
+        if k == 0 || !pl.leads() {
+            continue;
+        }
+        let x = if pl.value.im > 0.0 && k >= 2 {
+            let a = (2 * pl.occurrence) % k;
+            let b = (2 * pl.occurrence + 1) % k;
+            (s.columns(a, 1) + s.columns(b, 1) * C64::new(0.0, 1.0)) * C64::new(0.5_f64.sqrt(), 0.0)
+        } else {
+            s.columns(pl.occurrence % k, 1).into_owned()
+        };
+        set_real_columns(&mut t, &owned_columns(j, pl, n), &x);
+    }
+    t
+}
+
+/// `T⁻¹` and KNV's robustness measure `|det T| / Π ‖tⱼ‖` (1 for orthogonal
+/// columns, 0 for a singular `T`); `None` when `T` is singular.
+fn inverse_and_measure(t: &DMatrix<f64>) -> Option<(DMatrix<f64>, f64)> {
+    let norms: f64 = t
+        .column_iter()
+        .map(|c| c.norm())
+        .filter(|&v| v > 0.0)
+        .map(f64::ln)
+        .sum();
+    let lu = t.clone().lu();
+    let det = lu.determinant().abs();
+    let inv = lu.try_inverse()?;
+    let measure = (det.ln() - norms).exp();
+    measure.is_finite().then_some((inv, measure))
+}
+
+/// The new eigenvector of pole j: the projection on `Sⱼ` of a unit vector
+/// orthogonal to all other columns (rows `cols` of `T⁻¹`, orthonormalised);
+/// for a pair, `P_S (q₁ ± i q₂)`, the larger of the two (Re x ⊥ Im x with
+/// equal norms before projection, i.e. x ⊥ conj(x)).
+fn candidate(tinv: &DMatrix<f64>, cols: &[usize], s: &DMatrix<C64>) -> Option<DMatrix<C64>> {
+    let q = tinv.select_rows(cols).transpose();
+    let q = to_c(&q.qr().q());
+    let proj = |v: &DMatrix<C64>| s * (s.adjoint() * v);
+    let cand = if q.ncols() >= 2 {
+        let i = C64::new(0.0, 1.0);
+        let plus = proj(&(q.columns(0, 1) + q.columns(1, 1) * i));
+        let minus = proj(&(q.columns(0, 1) - q.columns(1, 1) * i));
+        if plus.norm() >= minus.norm() {
+            plus
+        } else {
+            minus
+        }
+    } else {
+        proj(&q.columns(0, 1).into_owned())
+    };
+    let norm = cand.norm();
+    (norm > 1.0e-12).then(|| cand / C64::new(norm, 0.0))
+}
+
+/// Replaces columns `cols` of `t` by those of `new` and updates `tinv` by
+/// Woodbury: `T'⁻¹ = T⁻¹ − T⁻¹ (V' − V) W⁻¹ Eᵀ T⁻¹` with `W = Eᵀ T⁻¹ V'`.
+/// Leaves both unchanged (returns false) when `W` is near singular, i.e. the
+/// replacement would make `T` near singular.
+fn replace_columns(
+    t: &mut DMatrix<f64>,
+    tinv: &mut DMatrix<f64>,
+    cols: &[usize],
+    new: &DMatrix<f64>,
+) -> bool {
+    let old = t.select_columns(cols);
+    let rows = tinv.select_rows(cols);
+    let w = &rows * new;
+    let scale = rows.norm() * new.norm();
+    let Some(w_inv) = w.clone().try_inverse() else {
+        return false;
+    };
+    if !(w.determinant().abs() > 1.0e-8 * scale.powi(cols.len() as i32)) {
+        return false;
+    }
+    let left = &*tinv * (new - old);
+    *tinv -= left * (w_inv * rows);
+    for (k, &c) in cols.iter().enumerate() {
+        t.set_column(c, &new.column(k));
+    }
+    true
+}
+
+/// One KNV sweep over the leading poles.
+fn sweep(t: &mut DMatrix<f64>, tinv: &mut DMatrix<f64>, poles: &[Pole], bases: &[DMatrix<C64>]) {
+    let n = t.nrows();
+    for (j, (pl, s)) in poles.iter().zip(bases).enumerate() {
+        let cols = owned_columns(j, pl, n);
+        if cols.is_empty() || s.ncols() == 0 {
+            continue;
+        }
+        let Some(x) = candidate(tinv, &cols, s) else {
+            continue;
+        };
+        let mut new = DMatrix::<f64>::zeros(n, cols.len());
+        new.set_column(0, &x.column(0).map(|v| v.re));
+        if cols.len() > 1 {
+            new.set_column(1, &x.column(0).map(|v| v.im));
+        }
+        replace_columns(t, tinv, &cols, &new);
+    }
+}
+
+/// KNV method 0 for `A − B K` (`b` n×m of full column rank).
+pub(super) fn knv_state_feedback(
+    a: &DMatrix<f64>,
+    b: &DMatrix<f64>,
+    poles: &[Pole],
+    max_sweeps: usize,
+) -> Result<Feedback> {
+    let n = a.nrows();
+    let m = b.ncols();
+    let qr = b.clone().qr();
+    let u0 = qr.q();
+    let z = qr.r();
+    let (t, sweeps) = if m >= n {
+        (DMatrix::<f64>::identity(n, n), 0)
+    } else {
+        let u1t = complement(&u0).transpose();
+        let bases = bases(a, &u1t, poles);
+        let mut t = start(n, poles, &bases);
+        let mut sweeps = 0;
+        if m > 1 {
+            let mut measure_old = inverse_and_measure(&t).map_or(0.0, |(_, d)| d);
+            while sweeps < max_sweeps {
+                let Some((mut tinv, _)) = inverse_and_measure(&t) else {
+                    break;
+                };
+                sweeps += 1;
+                sweep(&mut t, &mut tinv, poles, &bases);
+                let measure = inverse_and_measure(&t).map_or(0.0, |(_, d)| d);
+                let done = (measure - measure_old).abs() <= 1.0e-10 * measure;
+                measure_old = measure;
+                if done {
+                    break;
+                }
+            }
+        }
+        (t, sweeps)
+    };
+    gain_from_eigenvectors(a, &u0, &z, &t, poles, sweeps)
+}
+
+/// `K = Z⁻¹ U₀ᵀ (A − T Λ T⁻¹)` with the condition of `T`.
+fn gain_from_eigenvectors(
+    a: &DMatrix<f64>,
+    u0: &DMatrix<f64>,
+    z: &DMatrix<f64>,
+    t: &DMatrix<f64>,
+    poles: &[Pole],
+    sweeps: usize,
+) -> Result<Feedback> {
+    let n = a.nrows();
+    let lam = real_lambda(poles);
+    let st = checks::singular_values("eigenvector matrix X", t)?;
+    let smax = st.first().copied().unwrap_or(0.0);
+    let smin = st.last().copied().unwrap_or(0.0);
+    let condition = if smin > 0.0 {
+        smax / smin
+    } else {
+        f64::INFINITY
+    };
+    let singular = || NumericsError::Singular {
+        matrix: "eigenvector matrix X",
+        estimate: if condition.is_finite() {
+            1.0 / condition
+        } else {
+            0.0
+        },
+        threshold: n as f64 * f64::EPSILON,
+    };
+    if condition.is_nan() || 1.0 / condition <= n as f64 * f64::EPSILON {
+        return Err(singular());
+    }
+    // M = T Λ T⁻¹ from Tᵀ Mᵀ = (T Λ)ᵀ.
+    let mt = t
+        .transpose()
+        .lu()
+        .solve(&(t * &lam).transpose())
+        .ok_or_else(singular)?;
+    let rhs = u0.transpose() * (a - mt.transpose());
+    let k = z
+        .solve_upper_triangular(&rhs)
+        .ok_or(NumericsError::Singular {
+            matrix: "R factor of C",
+            estimate: 0.0,
+            threshold: 0.0,
+        })?;
+    checks::finite("L", &k)?;
+    Ok(Feedback {
+        k,
+        condition,
+        sweeps,
+    })
+}
