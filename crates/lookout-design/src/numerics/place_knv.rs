@@ -124,29 +124,26 @@ fn start(n: usize, poles: &[Pole], bases: &[DMatrix<C64>]) -> DMatrix<f64> {
     t
 }
 
-/// `T⁻¹` and KNV's robustness measure `|det T| / Π ‖tⱼ‖` (1 for orthogonal
-/// columns, 0 for a singular `T`); `None` when `T` is singular.
-fn inverse_and_measure(t: &DMatrix<f64>) -> Option<(DMatrix<f64>, f64)> {
-    let norms: f64 = t
-        .column_iter()
-        .map(|c| c.norm())
-        .filter(|&v| v > 0.0)
-        .map(f64::ln)
-        .sum();
+/// Logarithm of KNV's robustness measure `|det T| / Π ‖tⱼ‖` (0 for
+/// orthogonal columns, −∞ for a singular `T`), summed from the LU pivots so
+/// that it does not underflow for large n.
+fn log_measure(t: &DMatrix<f64>) -> f64 {
+    let norms: f64 = t.column_iter().map(|c| c.norm().ln()).sum();
     let lu = t.clone().lu();
-    let det = lu.determinant().abs();
-    let inv = lu.try_inverse()?;
-    let measure = (det.ln() - norms).exp();
-    measure.is_finite().then_some((inv, measure))
+    let det: f64 = lu.u().diagonal().iter().map(|v| v.abs().ln()).sum();
+    let m = det - norms;
+    if m.is_nan() { f64::NEG_INFINITY } else { m }
 }
 
-/// The new eigenvector of pole j: the projection on `Sⱼ` of a unit vector
-/// orthogonal to all other columns (rows `cols` of `T⁻¹`, orthonormalised);
+/// The new eigenvector of pole j: the projection on `Sⱼ` of a unit vector of
+/// `q` (an orthonormal real basis of the complement of all other columns);
 /// for a pair, `P_S (q₁ ± i q₂)`, the larger of the two (Re x ⊥ Im x with
 /// equal norms before projection, i.e. x ⊥ conj(x)).
-fn candidate(tinv: &DMatrix<f64>, cols: &[usize], s: &DMatrix<C64>) -> Option<DMatrix<C64>> {
-    let q = tinv.select_rows(cols).transpose();
-    let q = to_c(&q.qr().q());
+fn candidate(q: &DMatrix<f64>, s: &DMatrix<C64>) -> Option<DMatrix<C64>> {
+    if q.ncols() == 0 {
+        return None;
+    }
+    let q = to_c(q);
     let proj = |v: &DMatrix<C64>| s * (s.adjoint() * v);
     let cand = if q.ncols() >= 2 {
         let i = C64::new(0.0, 1.0);
@@ -192,15 +189,45 @@ fn replace_columns(
     true
 }
 
-/// One KNV sweep over the leading poles.
-fn sweep(t: &mut DMatrix<f64>, tinv: &mut DMatrix<f64>, poles: &[Pole], bases: &[DMatrix<C64>]) {
+/// Largest 1-norm condition of `T` for which a sweep works on the rows of
+/// `T⁻¹` (their directions are then good to about κ·ε, ample for a search
+/// direction: the placed poles depend on `xⱼ ∈ Sⱼ`, which the projection
+/// keeps exact). Above it the sweep takes KNV's QR of the other columns.
+const INVERSE_SWEEP_COND: f64 = 1.0e8;
+
+/// Largest column sum of absolute values (NaN when any entry is NaN).
+fn one_norm(m: &DMatrix<f64>) -> f64 {
+    m.column_iter()
+        .map(|c| c.iter().map(|v| v.abs()).sum::<f64>())
+        .fold(
+            0.0,
+            |acc: f64, v| if v.is_nan() { f64::NAN } else { acc.max(v) },
+        )
+}
+
+/// One KNV sweep over the leading poles: with `T⁻¹` updated by Woodbury when
+/// `T` is well conditioned (O(n³) per sweep), else with a QR of the other
+/// columns per pole (O(n⁴) per sweep, robust for a near-singular `T`).
+fn sweep(t: &mut DMatrix<f64>, poles: &[Pole], bases: &[DMatrix<C64>]) {
     let n = t.nrows();
+    let mut tinv = t
+        .clone()
+        .try_inverse()
+        .filter(|inv| one_norm(t) * one_norm(inv) <= INVERSE_SWEEP_COND);
     for (j, (pl, s)) in poles.iter().zip(bases).enumerate() {
         let cols = owned_columns(j, pl, n);
         if cols.is_empty() || s.ncols() == 0 {
             continue;
         }
-        let Some(x) = candidate(tinv, &cols, s) else {
+        let q = match &tinv {
+            Some(inv) => inv.select_rows(&cols).transpose().qr().q(),
+            None => {
+                let mut drop = cols.clone();
+                drop.sort_unstable();
+                complement(&t.clone().remove_columns_at(&drop))
+            }
+        };
+        let Some(x) = candidate(&q, s) else {
             continue;
         };
         let mut new = DMatrix::<f64>::zeros(n, cols.len());
@@ -208,7 +235,16 @@ fn sweep(t: &mut DMatrix<f64>, tinv: &mut DMatrix<f64>, poles: &[Pole], bases: &
         if cols.len() > 1 {
             new.set_column(1, &x.column(0).map(|v| v.im));
         }
-        replace_columns(t, tinv, &cols, &new);
+        match &mut tinv {
+            Some(inv) => {
+                replace_columns(t, inv, &cols, &new);
+            }
+            None => {
+                for (k, &c) in cols.iter().enumerate() {
+                    t.set_column(c, &new.column(k));
+                }
+            }
+        }
     }
 }
 
@@ -232,16 +268,13 @@ pub(super) fn knv_state_feedback(
         let mut t = start(n, poles, &bases);
         let mut sweeps = 0;
         if m > 1 {
-            let mut measure_old = inverse_and_measure(&t).map_or(0.0, |(_, d)| d);
+            let mut measure_old = log_measure(&t);
             while sweeps < max_sweeps {
-                let Some((mut tinv, _)) = inverse_and_measure(&t) else {
-                    break;
-                };
                 sweeps += 1;
-                sweep(&mut t, &mut tinv, poles, &bases);
-                let measure = inverse_and_measure(&t).map_or(0.0, |(_, d)| d);
-                let done = (measure - measure_old).abs() <= 1.0e-10 * measure;
-                measure_old = measure;
+                sweep(&mut t, poles, &bases);
+                let now = log_measure(&t);
+                let done = (now - measure_old).abs() <= 1.0e-10;
+                measure_old = now;
                 if done {
                     break;
                 }
