@@ -30,6 +30,7 @@ mod error;
 pub mod expm;
 pub mod observability;
 pub mod place;
+mod place_bases;
 mod place_knv;
 mod place_polynomial;
 mod staircase;

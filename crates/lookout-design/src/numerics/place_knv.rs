@@ -24,7 +24,8 @@
 use super::checks;
 use super::error::{NumericsError, Result};
 use super::place::Pole;
-use super::subspace::{complement, null_space};
+use super::place_bases;
+use super::subspace::complement;
 use nalgebra::{Complex, DMatrix};
 
 type C64 = Complex<f64>;
@@ -82,24 +83,6 @@ fn real_lambda(poles: &[Pole]) -> DMatrix<f64> {
         }
     }
     lam
-}
-
-/// `Sⱼ` for every leading pole (none stored for a conjugate member, which
-/// uses the conjugate of its leader's basis).
-fn bases(a: &DMatrix<f64>, u1t: &DMatrix<f64>, poles: &[Pole]) -> Vec<DMatrix<C64>> {
-    let u1ta = u1t * a;
-    poles
-        .iter()
-        .map(|pl| {
-            if !pl.leads() {
-                DMatrix::zeros(0, 0)
-            } else if pl.value.im == 0.0 {
-                to_c(&null_space(&(&u1ta - u1t * pl.value.re)))
-            } else {
-                null_space(&(to_c(&u1ta) - to_c(u1t) * pl.value))
-            }
-        })
-        .collect()
 }
 
 /// Starting real form: basis vector `occurrence mod m` of each `Sⱼ` for a
@@ -260,29 +243,36 @@ pub(super) fn knv_state_feedback(
     let qr = b.clone().qr();
     let u0 = qr.q();
     let z = qr.r();
-    let (t, sweeps) = if m >= n {
-        (DMatrix::<f64>::identity(n, n), 0)
-    } else {
-        let u1t = complement(&u0).transpose();
-        let bases = bases(a, &u1t, poles);
-        let mut t = start(n, poles, &bases);
-        let mut sweeps = 0;
-        if m > 1 {
-            let mut measure_old = log_measure(&t);
-            while sweeps < max_sweeps {
-                sweeps += 1;
-                sweep(&mut t, poles, &bases);
-                let now = log_measure(&t);
-                let done = (now - measure_old).abs() <= 1.0e-10;
-                measure_old = now;
-                if done {
-                    break;
-                }
+    if m >= n {
+        let t = DMatrix::<f64>::identity(n, n);
+        return gain_from_eigenvectors(a, &u0, &z, &t, poles, 0);
+    }
+    let mut u = DMatrix::<f64>::zeros(n, n);
+    u.columns_mut(0, m).copy_from(&u0);
+    u.columns_mut(m, n - m).copy_from(&complement(&u0));
+    let coords = place_bases::coordinates(a, &u, m);
+    let bases = place_bases::bases(&coords.a_hat, m, poles);
+    let mut t = start(n, poles, &bases);
+    let mut sweeps = 0;
+    if m > 1 {
+        let mut measure_old = log_measure(&t);
+        while sweeps < max_sweeps {
+            sweeps += 1;
+            sweep(&mut t, poles, &bases);
+            let now = log_measure(&t);
+            let done = (now - measure_old).abs() <= 1.0e-10;
+            measure_old = now;
+            if done {
+                break;
             }
         }
-        (t, sweeps)
-    };
-    gain_from_eigenvectors(a, &u0, &z, &t, poles, sweeps)
+    }
+    // In the new coordinates U₀ = [I; 0]; K = K̂ Qᵀ.
+    let e = DMatrix::<f64>::identity(n, m);
+    let mut fb = gain_from_eigenvectors(&coords.a_hat, &e, &z, &t, poles, sweeps)?;
+    fb.k = &fb.k * coords.q.transpose();
+    checks::finite("L", &fb.k)?;
+    Ok(fb)
 }
 
 /// `K = Z⁻¹ U₀ᵀ (A − T Λ T⁻¹)` with the condition of `T`.
