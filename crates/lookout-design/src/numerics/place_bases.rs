@@ -67,7 +67,7 @@ fn hessenberg_solve<T: ComplexField<RealField = f64> + Copy>(
             rhs.swap_rows(i, i + 1);
         }
         let piv = u[(i, i)];
-        if !(piv.modulus() > tiny) {
+        if piv.modulus().partial_cmp(&tiny) != Some(std::cmp::Ordering::Greater) {
             return false;
         }
         let f = u[(i + 1, i)] / piv;

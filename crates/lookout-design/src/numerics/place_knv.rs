@@ -161,7 +161,8 @@ fn replace_columns(
     let Some(w_inv) = w.clone().try_inverse() else {
         return false;
     };
-    if !(w.determinant().abs() > 1.0e-8 * scale.powi(cols.len() as i32)) {
+    let floor = 1.0e-8 * scale.powi(cols.len() as i32);
+    if w.determinant().abs().partial_cmp(&floor) != Some(std::cmp::Ordering::Greater) {
         return false;
     }
     let left = &*tinv * (new - old);
