@@ -128,3 +128,27 @@ pub(super) fn bases(
         })
         .collect()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Definition check: every basis is orthonormal and annihilated by the
+    /// last n − m rows of `Â − λ I`, both on the Hessenberg path (λ = 7) and
+    /// on the QR fallback (λ = 2 is an eigenvalue of the (2, 2) block
+    /// diag(2, 5), a zero pivot). Tolerance 8·ε·n·‖Â‖ (k = 8).
+    #[test]
+    fn bases_span_the_null_space_on_both_paths() {
+        let a_hat = DMatrix::from_row_slice(3, 3, &[1.0, 2.0, 3.0, 1.0, 2.0, 0.0, 4.0, 0.0, 5.0]);
+        for shift in [7.0, 2.0] {
+            let s = basis(&a_hat, 1, shift);
+            assert_eq!(s.shape(), (3, 1));
+            let mut rows = a_hat.rows(1, 2).into_owned();
+            rows[(0, 1)] -= shift;
+            rows[(1, 2)] -= shift;
+            let tol = 8.0 * f64::EPSILON * 3.0 * a_hat.norm();
+            assert!((&rows * &s).amax() <= tol, "shift {shift}: {}", &rows * &s);
+            assert!(((s.transpose() * &s)[(0, 0)] - 1.0).abs() <= tol);
+        }
+    }
+}
