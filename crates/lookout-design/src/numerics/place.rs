@@ -208,7 +208,7 @@ impl Pole {
     }
 }
 
-fn same(a: C64, b: C64) -> bool {
+pub(super) fn same(a: C64, b: C64) -> bool {
     (a - b).norm() <= SAME_POLE * a.norm().max(1.0)
 }
 

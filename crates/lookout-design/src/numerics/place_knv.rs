@@ -85,22 +85,40 @@ fn real_lambda(poles: &[Pole]) -> DMatrix<f64> {
     lam
 }
 
-/// Starting real form: basis vector `occurrence mod m` of each `Sⱼ` for a
-/// real pole; for a complex leader, `(s_a + i s_b)/√2` from two basis
-/// vectors so that Re x and Im x are independent even when Sⱼ happens to be real.
+/// Starting real form. The poles take the basis vectors of their `Sⱼ` in
+/// turn (a real pole one, a pair two, `(s_a + i s_b)/√2` so that Re x and
+/// Im x are independent even when Sⱼ happens to be real), counting on from
+/// one pole to the next, so that distinct poles start from different
+/// directions rather than all from the first; a repeated pole counts on
+/// from its first occurrence, so equal poles take distinct vectors of the
+/// same space (at most m of them, as `normalise_poles` guarantees).
 fn start(n: usize, poles: &[Pole], bases: &[DMatrix<C64>]) -> DMatrix<f64> {
     let mut t = DMatrix::<f64>::zeros(n, n);
+    let mut firsts: Vec<(C64, usize)> = Vec::new();
+    let mut slot = 0;
     for (j, (pl, s)) in poles.iter().zip(bases).enumerate() {
         let k = s.ncols();
         if k == 0 || !pl.leads() {
             continue;
         }
-        let x = if pl.value.im > 0.0 && k >= 2 {
-            let a = (2 * pl.occurrence) % k;
-            let b = (2 * pl.occurrence + 1) % k;
+        let width = if pl.value.im > 0.0 && k >= 2 { 2 } else { 1 };
+        let base = if pl.occurrence == 0 {
+            firsts.push((pl.value, slot));
+            slot
+        } else {
+            firsts
+                .iter()
+                .find(|(v, _)| super::place::same(*v, pl.value))
+                .map_or(0, |(_, b)| *b)
+        };
+        let first = base + width * pl.occurrence;
+        slot += width;
+        let x = if width == 2 {
+            let a = first % k;
+            let b = (first + 1) % k;
             (s.columns(a, 1) + s.columns(b, 1) * C64::new(0.0, 1.0)) * C64::new(0.5_f64.sqrt(), 0.0)
         } else {
-            s.columns(pl.occurrence % k, 1).into_owned()
+            s.columns(first % k, 1).into_owned()
         };
         set_real_columns(&mut t, &owned_columns(j, pl, n), &x);
     }
@@ -232,6 +250,41 @@ fn sweep(t: &mut DMatrix<f64>, poles: &[Pole], bases: &[DMatrix<C64>]) {
     }
 }
 
+/// Sweeps that stop once the measure settles (relative change of `|det|`
+/// ≤ 1e-10 over a sweep, KNV's test) or, since method 0 does not increase it
+/// monotonically, once the best measure seen has not grown by 0.1 % in
+/// [`STALL_SWEEPS`] sweeps; returns the best `T` seen and the sweeps made.
+fn improve(
+    mut t: DMatrix<f64>,
+    poles: &[Pole],
+    bases: &[DMatrix<C64>],
+    max_sweeps: usize,
+) -> (DMatrix<f64>, usize) {
+    let mut old = log_measure(&t);
+    let mut best = (old, t.clone(), 0_usize);
+    let mut sweeps = 0;
+    while sweeps < max_sweeps {
+        sweeps += 1;
+        sweep(&mut t, poles, bases);
+        let now = log_measure(&t);
+        if now > best.0 + 1.0e-3 {
+            best = (now, t.clone(), sweeps);
+        } else if now > best.0 {
+            best.0 = now;
+            best.1 = t.clone();
+        }
+        let settled = (now - old).abs() <= 1.0e-10;
+        old = now;
+        if settled || sweeps - best.2 >= STALL_SWEEPS {
+            break;
+        }
+    }
+    (best.1, sweeps)
+}
+
+/// Sweeps without a 0.1 % gain of the measure after which [`improve`] stops.
+const STALL_SWEEPS: usize = 5;
+
 /// KNV method 0 for `A − B K` (`b` n×m of full column rank).
 pub(super) fn knv_state_feedback(
     a: &DMatrix<f64>,
@@ -253,21 +306,12 @@ pub(super) fn knv_state_feedback(
     u.columns_mut(m, n - m).copy_from(&complement(&u0));
     let coords = place_bases::coordinates(a, &u, m);
     let bases = place_bases::bases(&coords.a_hat, m, poles);
-    let mut t = start(n, poles, &bases);
-    let mut sweeps = 0;
-    if m > 1 {
-        let mut measure_old = log_measure(&t);
-        while sweeps < max_sweeps {
-            sweeps += 1;
-            sweep(&mut t, poles, &bases);
-            let now = log_measure(&t);
-            let done = (now - measure_old).abs() <= 1.0e-10;
-            measure_old = now;
-            if done {
-                break;
-            }
-        }
-    }
+    let t = start(n, poles, &bases);
+    let (t, sweeps) = if m > 1 {
+        improve(t, poles, &bases, max_sweeps)
+    } else {
+        (t, 0)
+    };
     // In the new coordinates U₀ = [I; 0]; K = K̂ Qᵀ.
     let e = DMatrix::<f64>::identity(n, m);
     let mut fb = gain_from_eigenvectors(&coords.a_hat, &e, &z, &t, poles, sweeps)?;
