@@ -25,6 +25,10 @@
 //! polynomial, with a sensitivity warning); with several outputs it is
 //! refused with [`NumericsError::PoleMultiplicity`].
 //!
+//! When every state is measured (p = n) the sweep is not needed: orthogonal
+//! eigenvectors are KNV's optimum and `A − L C` is the real block form of
+//! the poles (see `place_knv`, which also states the cost of each step).
+//!
 //! The result is always verified by recomputing `eig(A − L C)`.
 
 use super::checks;

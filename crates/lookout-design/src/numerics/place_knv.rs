@@ -2,17 +2,21 @@
 //! and P. Van Dooren, "Robust pole assignment in linear state feedback",
 //! Int. J. Control 41(5), 1985, method 0, for `A − B K` (the dual pair).
 //!
-//! Cost. The bases `Sⱼ = null(U₁ᵀ (A − λⱼ I))` take one QR of an
-//! `n × (n − m)` matrix per pole (`U₁ᵀ A` is formed once): O(n³) per pole,
-//! O(n⁴) in all, and O(n² m) memory for the bases, as in KNV. A sweep is
-//! O(n³) whatever m: the vectors orthogonal to all columns of the real
-//! eigenvector matrix `T` but the ones being replaced are the matching rows
-//! of `T⁻¹` (common practice: `T⁻¹ T = I`), and `T⁻¹` follows each column
-//! replacement by the Sherman–Morrison–Woodbury formula (M. A. Woodbury,
-//! "Inverting modified matrices", Memorandum Report 42, Princeton, 1950;
-//! J. Sherman and W. J. Morrison, Ann. Math. Statist. 21, 1950), O(n²) per
-//! pole instead of a QR of the other n − 1 columns (O(n³) per pole). `T⁻¹` is
-//! refactored at the start of every sweep so rounding does not accumulate.
+//! Cost. The bases `Sⱼ` come from one Hessenberg reduction (see
+//! `place_bases`): O(n³) once and O(n² m) per pole, O(n³ m) in all, O(n² m)
+//! memory (one n × m basis per real pole or pair, complex for pairs). A
+//! sweep is O(n³) whatever m: the vectors orthogonal to all columns of the
+//! real eigenvector matrix `T` but the ones being replaced are the matching
+//! rows of `T⁻¹` (common practice: `T⁻¹ T = I`), and `T⁻¹` follows each
+//! column replacement by the Sherman–Morrison–Woodbury formula (M. A.
+//! Woodbury, "Inverting modified matrices", Memorandum Report 42, Princeton,
+//! 1950; J. Sherman and W. J. Morrison, Ann. Math. Statist. 21, 1950; from
+//! memory), O(n² m) per pole instead of a QR of the other n − 1 columns
+//! (O(n³) per pole). `T⁻¹` is refactored at the start of every sweep so
+//! rounding does not accumulate; while `T` is too ill-conditioned for its
+//! inverse to give directions (1-norm condition above 1e8) the sweep takes
+//! KNV's QR of the other columns (O(n⁴) per sweep). Sweeps stop on KNV's test
+//! or when the measure stalls (see [`improve`]), at most `max_sweeps`.
 //!
 //! With as many inputs as states (`m = n`, the dual of measuring every
 //! state) every `Sⱼ` is the whole space and KNV's optimum is reached without
