@@ -361,6 +361,21 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
                 .iter()
                 .map(|(k, m)| Warning::new(k.clone(), m.clone())),
         );
+        if let Some(g) = &design.gate {
+            let ty = crate::fixed_point::format_name(fixed.format);
+            if design.p() <= crate::emit::MAX_FIXED_GATE_OUTPUTS
+                && crate::emit::gate::fixed(ty, g, &fixed.output_exponents).is_none()
+            {
+                return Err(DesignError::Unsupported {
+                    origin: origin.to_string(),
+                    key: "observer.kalman.gate_probability",
+                    message: format!(
+                        "the innovation gate (limit {:e} on rᵀS⁻¹r) cannot be stored in {ty} at the output scales; choose a gate probability (or threshold) whose limit is representable, e.g. 0.99–0.9999, or remove the gate",
+                        g.limit
+                    ),
+                });
+            }
+        }
         if design.gate.is_some() && design.p() > crate::emit::MAX_FIXED_GATE_OUTPUTS {
             early_warnings.push(Warning::new(
                 "observer.gate_probability",
