@@ -43,6 +43,43 @@ pub enum Command {
     /// Run the observer in every number format against a simulated plant
     /// (optionally perturbed, disturbed and noisy) and report how it does.
     Simulate(Box<SimArgs>),
+    /// Run the observer over a logged bench record in every number format,
+    /// test its innovations (mean, covariance, NIS, whiteness) and fit the
+    /// process and measurement noise to them.
+    Replay(ReplayArgs),
+}
+
+/// Options of `lookout replay`.
+#[derive(Debug, clap::Args)]
+pub struct ReplayArgs {
+    /// The model file (TOML).
+    pub model: PathBuf,
+    /// The log (CSV with a header: the model's input and output names, an
+    /// optional time column; an empty reading cell is a missing reading).
+    pub log: PathBuf,
+    /// Lags of the autocorrelation test and of the noise fit.
+    #[arg(long, default_value_t = 20, allow_negative_numbers = true)]
+    pub lags: i64,
+    /// Samples left out of the statistics at the start of the log (default:
+    /// until the observer's error has decayed by 10⁶, at most half the log).
+    #[arg(long, allow_negative_numbers = true)]
+    pub skip: Option<i64>,
+    /// Skip columns other than time, step, inputs and outputs instead of
+    /// refusing them (e.g. a `lookout simulate --csv` file).
+    #[arg(long)]
+    pub ignore_other_columns: bool,
+    /// Print one JSON object instead of the readable report.
+    #[arg(long)]
+    pub json: bool,
+    /// Write the innovations and estimates per format as CSV.
+    #[arg(long, value_name = "FILE")]
+    pub csv: Option<PathBuf>,
+    /// Write the innovation and autocorrelation plot (.svg or .png).
+    #[arg(long, value_name = "FILE")]
+    pub plot: Option<PathBuf>,
+    /// TrueType font for the plot's text.
+    #[arg(long, value_name = "FILE")]
+    pub font: Option<PathBuf>,
 }
 
 /// Options of `lookout simulate`. Numbers are checked by the command itself
@@ -139,7 +176,7 @@ impl From<ScalarArg> for lookout_design::Scalar {
 /// without clap's own `error: ` prefix), pointing to `--help`.
 pub fn one_line(e: &clap::Error) -> String {
     if e.kind() == clap::error::ErrorKind::DisplayHelpOnMissingArgumentOrSubcommand {
-        return "no subcommand: design, emit or simulate (see lookout --help)".to_string();
+        return "no subcommand: design, emit, simulate or replay (see lookout --help)".to_string();
     }
     let text = e.render().to_string();
     let paragraph: Vec<&str> = text

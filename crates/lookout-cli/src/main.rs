@@ -8,6 +8,7 @@
 mod cli;
 mod error;
 mod json;
+mod replay;
 mod report;
 mod sim;
 
@@ -56,6 +57,12 @@ fn run(args: cli::Args) -> Result<(), CliError> {
             let opts = sim::prepare(&design, &sim_args)?;
             warn(&design);
             let text = sim::simulate(&design, &sim_args, &opts)?;
+            Ok(write_stdout(text.as_bytes())?)
+        }
+        cli::Command::Replay(args) => {
+            let design = design_file(&args.model)?;
+            let text = replay::command(&design, &args)?;
+            warn(&design);
             Ok(write_stdout(text.as_bytes())?)
         }
         cli::Command::Emit {

@@ -83,8 +83,9 @@ fn f64_errors(path: &PathBuf, names: &[&str]) -> Vec<Vec<f64>> {
         .collect();
     lines
         .map(|l| {
-            let cells: Vec<f64> = l.split(',').map(|c| c.parse().unwrap()).collect();
-            cols.iter().map(|&c| cells[c]).collect()
+            // Only the wanted cells: the log columns of the last row are empty.
+            let cells: Vec<&str> = l.split(',').collect();
+            cols.iter().map(|&c| cells[c].parse().unwrap()).collect()
         })
         .collect()
 }
@@ -578,4 +579,72 @@ fn non_finite_f64_run_is_never_converged() {
     let text = String::from_utf8_lossy(&lookout(&args).stdout).into_owned();
     assert!(text.contains("the design fails"), "{text}");
     assert!(!text.contains(": CONVERGED"), "{text}");
+}
+
+const CELL: &str = "../../examples/cell.toml";
+
+// One value per concept: the verdict band rests on the very deviation bound
+// `lookout design --json` reports (`fixed_point.format_accuracy`), for the
+// form simulate runs. Checked against the design command's own output (a
+// different command path over the same model) and the band's stated
+// composition (docs/simulate.md): with noise k·σ + deviation, without the
+// f64 residual plus the f64 and the format's deviation; either way the Q31
+// band minus the f64 band is the Q31 deviation minus the f64 one.
+
+/// The design's deviation of `form` in `format` from `lookout design --json`.
+fn design_deviation(form: &str, format: &str) -> Vec<f64> {
+    let d = json(&["design", CELL, "--json"]);
+    let row = d["fixed_point"]["format_accuracy"]["combinations"]
+        .as_array()
+        .unwrap()
+        .iter()
+        .find(|c| c["form"] == form && c["format"] == format)
+        .unwrap_or_else(|| panic!("no {form} {format} row"))
+        .clone();
+    numbers(&row["deviation"])
+}
+
+/// Issue 12/13 unification: a Q31 run of the cell demo (predictor form,
+/// `[fixed_point]` in Q31) carries exactly the design's predictor-Q31
+/// deviation in its band, with and without simulated noise.
+#[test]
+fn q31_band_holds_exactly_the_designs_deviation() {
+    let q31 = design_deviation("predictor", "q31");
+    let f64_dev = design_deviation("predictor", "f64");
+    for extra in [&[][..], &["--measurement-noise", "0.001"][..]] {
+        let mut args = vec!["simulate", CELL, "--formats", "q31", "--json"];
+        args.extend_from_slice(extra);
+        let v = json(&args);
+        let (f, q) = (format(&v, "f64"), format(&v, "q31"));
+        // Serialised by the same serializer from the same f64: equal bits.
+        assert_eq!(numbers(&q["deviation_bound"]), q31, "{extra:?}");
+        // f64's bound is the same analysis at the run's own signal peaks
+        // (this run starts outside the declared ranges, so they may exceed
+        // the scales): the same order as the design's, never zero.
+        let run_f64 = numbers(&f["deviation_bound"]);
+        for (run, design) in run_f64.iter().zip(&f64_dev) {
+            assert!(
+                *run > 0.0 && *run < 100.0 * design,
+                "{extra:?}: f64 {run}, design {design}"
+            );
+        }
+        let (bf, bq) = (numbers(&f["band"]), numbers(&q["band"]));
+        for i in 0..q31.len() {
+            // Both bands share their first term; the difference is formed
+            // with two roundings of about ε·band each (k = 4).
+            let want = q31[i] - run_f64[i];
+            let tol = 4.0 * f64::EPSILON * bq[i];
+            assert!(
+                ((bq[i] - bf[i]) - want).abs() <= tol,
+                "{extra:?} state {i}: band q31 {} − f64 {} ≠ deviation q31 − f64 {want}",
+                bq[i],
+                bf[i]
+            );
+        }
+        let source = v["tolerance_source"].as_str().unwrap();
+        assert!(
+            source.contains("format_accuracy") && source.contains("predictor form"),
+            "{source}"
+        );
+    }
 }

@@ -7,6 +7,7 @@ pub mod emit;
 pub mod fixed_point;
 pub mod model;
 pub mod numerics;
+pub mod replay;
 
 pub use design::{Design, DesignError, Warning, design_file, design_text};
 pub use emit::{

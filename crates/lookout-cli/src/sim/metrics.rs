@@ -1,11 +1,15 @@
 //! Figures of merit of one format's run against the truth, the f64 observer
 //! and the design's statistics ([`Reference`]), and its [`Verdict`].
 
+use super::options::SimOptions;
 use super::plant::Trajectory;
-use super::reference::{ROUNDING_MULTIPLE, Reference, test_confidence};
+use super::predicted;
+use super::reference::{Reference, test_confidence};
 use super::runtime::{Format, FormatRun};
 use super::verdict::{Interval, Verdict, mean_within, normal_quantile};
 use lookout_design::Design;
+use lookout_design::fixed_point::accuracy::float_deviation;
+use lookout_design::fixed_point::{Deviation, FloatTables};
 use nalgebra::{DMatrix, DVector};
 
 /// e_i[k] = x_i[k] − x̂_i[k] for k = 0..=steps.
@@ -43,8 +47,9 @@ pub struct Metrics {
     pub converged: bool,
     /// This format's band per state.
     pub band: Vec<f64>,
-    /// Predicted deviation by rounding per state (see [`rounding`]).
-    pub rounding: Vec<f64>,
+    /// Bound on the deviation from the exact observer per state (see
+    /// [`deviation`]).
+    pub deviation: Vec<f64>,
     /// Per state: with noise the mean error over the settled samples;
     /// without, the peak |error| over the last eighth of the run.
     pub mean_error: Vec<f64>,
@@ -60,72 +65,120 @@ pub struct Metrics {
     pub verdict: Verdict,
 }
 
-/// Unit roundoff of a float format, or the Q format's fraction bits.
-fn format_step(format: Format) -> Result<f64, i32> {
-    match format {
-        Format::F64 => Ok(f64::EPSILON / 2.0),
-        Format::F32 => Ok(f64::from(f32::EPSILON) / 2.0),
-        Format::Q31 => Err(31),
-        Format::Q15 => Err(15),
+/// Per state, the largest |value| of an interleaved series `width` wide.
+fn peaks(values: &[f64], width: usize) -> Vec<f64> {
+    let mut out = vec![0.0f64; width];
+    for row in values.chunks(width.max(1)) {
+        for (o, v) in out.iter_mut().zip(row) {
+            *o = o.max(v.abs());
+        }
+    }
+    out
+}
+
+/// Without `[fixed_point]` (float formats only): the design's float
+/// analysis ([`lookout_design::fixed_point::accuracy::float_deviation`])
+/// with this run's peaks standing in for the signal scales: the larger of
+/// the format's and the f64 run's estimate per state (the exact estimate
+/// differs from the f64 one by f64 rounding only), the inputs and readings.
+fn run_peak_deviation(
+    design: &Design,
+    traj: &Trajectory,
+    run: &FormatRun,
+    reference_run: &FormatRun,
+) -> Option<Deviation> {
+    let names = design.state_names();
+    let tables = FloatTables::of(design, &names);
+    let x: Vec<f64> = peaks(&run.estimate, traj.n)
+        .iter()
+        .zip(peaks(&reference_run.estimate, traj.n))
+        .map(|(a, b)| a.max(b))
+        .collect();
+    let (u, y) = (peaks(&traj.u, traj.m), peaks(&traj.y, traj.p));
+    float_deviation(
+        &tables,
+        predicted::simulated_form(design),
+        predicted::kind(run.format),
+        (&x, &u, &y),
+    )
+}
+
+/// Bound on |x̂ − x̂_exact| of `run` per state, x̂_exact the exact
+/// observer's estimate: the design's proven deviation for this form and
+/// format (`format_accuracy`, see [`predicted::design_deviation`]) when the
+/// model has `[fixed_point]`, else [`run_peak_deviation`]. Infinite where
+/// no bound exists (the analysis refuses the combination: its stored
+/// error dynamics do not decay or its tables do not fit).
+pub fn deviation(
+    design: &Design,
+    traj: &Trajectory,
+    run: &FormatRun,
+    reference_run: &FormatRun,
+) -> Vec<f64> {
+    // A float step never saturates, so the bound at this run's own signal
+    // peaks is proven for the run and far tighter than the design's at the
+    // full scales (which would hide a real bias in the band); a Q step is
+    // bounded at its scales, which it cannot leave without saturating.
+    let found = match run.format {
+        Format::F64 | Format::F32 => run_peak_deviation(design, traj, run, reference_run),
+        _ => predicted::design_deviation(design, run.format).cloned(),
+    };
+    match found {
+        Some(d) if d.refused.is_none() => d.total,
+        _ => vec![f64::INFINITY; traj.n],
     }
 }
 
-/// Predicted deviation of `run` from exact arithmetic, per state: Γ δ with
-/// Γ = Σ_k |Fᵏ| and δ the per-step error, for floats u·(n + m + p + 1)
-/// times the peak |x̂_i| (Higham's γ bound for one dot product, *Accuracy
-/// and Stability of Numerical Algorithms*, 2002, §3.1, with the peak
-/// standing in for Σ|a||x|: a stated estimate, not a proof), for Q formats
-/// 2 LSB of the state (two rounded stores per step).
-pub fn rounding(design: &Design, run: &FormatRun, reference: &Reference) -> Vec<f64> {
-    let n = design.n();
-    let delta: Vec<f64> = match format_step(run.format) {
-        Ok(u) => {
-            let terms = (design.n() + design.m() + design.p() + 1) as f64;
-            (0..n)
-                .map(|i| {
-                    let peak = run
-                        .estimate
-                        .iter()
-                        .skip(i)
-                        .step_by(n)
-                        .fold(0.0, |m: f64, v| m.max(v.abs()));
-                    u * terms * peak
-                })
-                .collect()
-        }
-        Err(frac) => {
-            let exps = design
-                .fixed_point
-                .as_ref()
-                .map(|f| f.state_exponents.clone())
-                .unwrap_or_default();
-            (0..n)
-                .map(|i| {
-                    let e = exps.get(i).copied().map_or(0, i32::from);
-                    2.0 * 2f64.powi(e - frac)
-                })
-                .collect()
-        }
-    };
-    (&reference.rounding_gain * DVector::from_vec(delta))
-        .iter()
-        .copied()
-        .collect()
+/// Where [`deviation`] comes from, for the report.
+pub fn deviation_source(design: &Design) -> String {
+    let form = predicted::simulated_form(design).name();
+    let float = format!(
+        "for f64 and f32 the design's float deviation bound of the {form} form (as in format_accuracy: Higham's γ per dot product through the ℓ1 impulse response of the stored error dynamics) at this run's signal peaks, proven for the run while every reading is used"
+    );
+    if design.fixed_point.is_some() {
+        format!(
+            "{float}; for Q formats the design's proven deviation of the {form} form at the scales (format_accuracy in `lookout design --json`; proven while every reading is used, no signal leaves its scale and nothing saturates)"
+        )
+    } else {
+        float
+    }
 }
 
-/// The band of a format: k·σ plus a multiple of its rounding deviation
-/// with noise; without, the multiple of the rounding deviation plus the f64
-/// run's residual (its largest error over the last quarter).
-pub fn band(reference: &Reference, rounding: &[f64], residual: &[f64]) -> Vec<f64> {
-    rounding
-        .iter()
+/// Where the bands of a run come from, for the report.
+pub fn tolerance_source(design: &Design, opts: &SimOptions, reference: &Reference) -> String {
+    if opts.tolerance.is_some() {
+        "--tolerance".to_string()
+    } else if reference.noisy {
+        format!(
+            "k·σ per state with k = {:.2} (a consistent error leaves it anywhere in the run with probability {}), σ from {}; plus 1 × {}",
+            reference.k,
+            super::reference::BAND_MISS,
+            reference.source,
+            deviation_source(design)
+        )
+    } else {
+        format!(
+            "the f64 run's residual over the last quarter plus 1 × the f64 run's and 1 × the format's deviation bound: {}",
+            deviation_source(design)
+        )
+    }
+}
+
+/// The band of a format from its deviation bound `dev` and the f64 run's
+/// `f64_dev`: with noise k·σ plus `dev` (σ is the exact observer's error);
+/// without, the f64 run's residual (its largest error over the last
+/// quarter) plus `f64_dev` (the exact observer's error is within that) plus
+/// `dev`.
+pub fn band(reference: &Reference, dev: &[f64], f64_dev: &[f64], residual: &[f64]) -> Vec<f64> {
+    dev.iter()
+        .zip(f64_dev)
         .zip(&reference.sigma)
         .zip(residual)
-        .map(|((&r, &s), &res)| {
+        .map(|(((&d, &d64), &s), &res)| {
             let b = if reference.noisy {
-                reference.k * s + ROUNDING_MULTIPLE * r
+                reference.k * s + d
             } else {
-                ROUNDING_MULTIPLE * r + res
+                res + d64 + d
             };
             b.max(f64::MIN_POSITIVE)
         })
@@ -217,14 +270,14 @@ fn consistency(
 }
 
 /// Per state: the mean error over the settled, nearly independent
-/// samples, its limit z·σ/√K + the rounding term (z the two-sided normal
+/// samples, its limit z·σ/√K + the deviation bound (z the two-sided normal
 /// quantile at [`test_confidence`]), and the first
 /// state beyond it.
 fn bias_with_noise(
     traj: &Trajectory,
     run: &FormatRun,
     reference: &Reference,
-    rounding: &[f64],
+    dev: &[f64],
     start: usize,
 ) -> (Vec<f64>, Vec<f64>, Option<usize>) {
     let n = traj.n;
@@ -238,7 +291,7 @@ fn bias_with_noise(
             .collect();
         let sigma = reference.sigma.get(i).copied().unwrap_or(0.0);
         let spread = z * sigma / (e.len().max(1) as f64).sqrt();
-        let limit = spread + ROUNDING_MULTIPLE * rounding.get(i).copied().unwrap_or(0.0);
+        let limit = spread + dev.get(i).copied().unwrap_or(0.0);
         let (mean, ok) = mean_within(&e, limit.max(f64::MIN_POSITIVE));
         if !ok && out.2.is_none() {
             out.2 = Some(i);
@@ -253,15 +306,15 @@ fn bias_with_noise(
 /// to rounding, so with D = diag(d) any positive scaling,
 /// max over the last eighth of |e_i| / d_i ≤ ‖D⁻¹ Fᴸ D‖∞ · max over the
 /// eighth before of max_j |e_j| / d_j (L the eighth's length). With d_j the
-/// peak |e_j| over the earlier eighth (at least the rounding term) the
-/// allowed peak of state i is d_i ‖D⁻¹ Fᴸ D‖∞ plus the rounding term; an
+/// peak |e_j| over the earlier eighth (at least the deviation bound) the
+/// allowed peak of state i is d_i ‖D⁻¹ Fᴸ D‖∞ plus the deviation bound; an
 /// error beyond it does not decay as the design says: a model mismatch or
 /// an unmodelled input. Returns per state the later peak and its limit.
 fn bias_without_noise(
     traj: &Trajectory,
     run: &FormatRun,
     reference: &Reference,
-    rounding: &[f64],
+    dev: &[f64],
 ) -> (Vec<f64>, Vec<f64>, Option<usize>) {
     let n = traj.n;
     let len = traj.steps + 1;
@@ -278,7 +331,7 @@ fn bias_without_noise(
         before.push(peak(&e, len.saturating_sub(2 * window)));
         after.push(peak(&e, len - window));
     }
-    let round = |i: usize| ROUNDING_MULTIPLE * rounding.get(i).copied().unwrap_or(0.0);
+    let round = |i: usize| dev.get(i).copied().unwrap_or(0.0);
     let d: Vec<f64> = (0..n)
         .map(|i| before[i].max(round(i)).max(f64::MIN_POSITIVE))
         .collect();
@@ -314,9 +367,13 @@ pub fn measure(
 ) -> Metrics {
     let n = traj.n;
     let len = traj.steps + 1;
-    let rounding = rounding(design, run, reference);
+    let dev = deviation(design, traj, run, reference_run);
+    let f64_dev = deviation(design, traj, reference_run, reference_run);
     let residual = residual(traj, reference_run);
-    let band = tolerance.map_or_else(|| band(reference, &rounding, &residual), <[f64]>::to_vec);
+    let band = tolerance.map_or_else(
+        || band(reference, &dev, &f64_dev, &residual),
+        <[f64]>::to_vec,
+    );
     let mut rms_error = Vec::with_capacity(n);
     let mut final_error = Vec::with_capacity(n);
     let mut stable = true;
@@ -357,9 +414,9 @@ pub fn measure(
     // error that stays outside its band by a steady amount is a bias.
     let start = settling_step.unwrap_or(len - len / 4);
     let (mean_error, mean_limit, biased) = if reference.noisy {
-        bias_with_noise(traj, run, reference, &rounding, start)
+        bias_with_noise(traj, run, reference, &dev, start)
     } else {
-        bias_without_noise(traj, run, reference, &rounding)
+        bias_without_noise(traj, run, reference, &dev)
     };
     let (nees, nis, untested) = if settling_step.is_some() && finite {
         consistency(design, traj, run, reference, start)
@@ -400,7 +457,7 @@ pub fn measure(
         stable,
         converged: verdict.converged(),
         band,
-        rounding,
+        deviation: dev,
         mean_error,
         mean_limit,
         nees,

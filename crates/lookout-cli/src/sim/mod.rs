@@ -123,25 +123,7 @@ pub fn run_once(
         .zip(&opts.initial_error)
         .map(|(x, e)| x - e)
         .collect();
-    let designed_format = design.fixed_point.as_ref().map(|f| match f.format {
-        lookout_design::model::FixedFormat::Q31 => Format::Q31,
-        lookout_design::model::FixedFormat::Q15 => Format::Q15,
-    });
-    let mut runs = Vec::new();
-    let mut skipped = Vec::new();
-    for &format in &setup.formats {
-        match runtime::run(design, format, &traj, &x0) {
-            Ok(r) => runs.push(r),
-            // The other Q format was not designed for: it may not fit.
-            Err(CliError::BadInput(why))
-                if matches!(format, Format::Q31 | Format::Q15)
-                    && Some(format) != designed_format =>
-            {
-                skipped.push((format, why));
-            }
-            Err(e) => return Err(e),
-        }
-    }
+    let (runs, skipped) = run_formats(design, &setup.formats, &traj, &x0)?;
     let reference_run = runs
         .first()
         .cloned()
@@ -165,22 +147,7 @@ pub fn run_once(
         .first()
         .map(|(_, m)| m.band.clone())
         .unwrap_or_default();
-    let tolerance_source = if opts.tolerance.is_some() {
-        "--tolerance".to_string()
-    } else if reference.noisy {
-        format!(
-            "k·σ per state with k = {:.2} (a consistent error leaves it anywhere in the run with probability {}), σ from {}; plus {} × the format's predicted rounding deviation",
-            reference.k,
-            reference::BAND_MISS,
-            reference.source,
-            reference::ROUNDING_MULTIPLE
-        )
-    } else {
-        format!(
-            "{} × the format's predicted rounding deviation (Σ|Fᵏ| times the per-step bound) plus the f64 run's residual over the last quarter",
-            reference::ROUNDING_MULTIPLE
-        )
-    };
+    let tolerance_source = metrics::tolerance_source(design, opts, reference);
     Ok(RunResult {
         traj,
         formats,
@@ -190,6 +157,40 @@ pub fn run_once(
         perturbation: plant.perturbation,
         warnings,
     })
+}
+
+/// Formats that could not be built, with the reason.
+pub type Skipped = Vec<(Format, String)>;
+
+/// Runs each of `formats` (f64 first) over `traj` from the estimate `x0`.
+/// A Q format the design was not made for is skipped, with the reason, when
+/// its tables cannot be built.
+pub fn run_formats(
+    design: &Design,
+    formats: &[Format],
+    traj: &Trajectory,
+    x0: &[f64],
+) -> Result<(Vec<FormatRun>, Skipped), CliError> {
+    let designed_format = design.fixed_point.as_ref().map(|f| match f.format {
+        lookout_design::model::FixedFormat::Q31 => Format::Q31,
+        lookout_design::model::FixedFormat::Q15 => Format::Q15,
+    });
+    let mut runs = Vec::new();
+    let mut skipped = Vec::new();
+    for &format in formats {
+        match runtime::run(design, format, traj, x0) {
+            Ok(r) => runs.push(r),
+            // The other Q format was not designed for: it may not fit.
+            Err(CliError::BadInput(why))
+                if matches!(format, Format::Q31 | Format::Q15)
+                    && Some(format) != designed_format =>
+            {
+                skipped.push((format, why));
+            }
+            Err(e) => return Err(e),
+        }
+    }
+    Ok((runs, skipped))
 }
 
 /// Largest memory the recorded time series of one run may take (bytes):
@@ -236,7 +237,7 @@ fn check_memory(
     // for --csv about 24 characters per number of the text.
     let mut per_step = 8 * (n * (1 + formats) + m + p) + p;
     if csv {
-        per_step += 24 * (n * (1 + 2 * formats) + 2);
+        per_step += 24 * (n * (1 + 2 * formats) + 2 + m + p);
     }
     let parallel = if opts.sweep.is_some() {
         rayon::current_num_threads().max(1) as u64

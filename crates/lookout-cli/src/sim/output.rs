@@ -209,7 +209,7 @@ pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
                 "converged": m.converged,
                 "verdict": m.verdict.label(),
                 "band": m.band,
-                "predicted_rounding_deviation": m.rounding,
+                "deviation_bound": m.deviation,
                 "mean_error": m.mean_error,
                 "mean_error_limit": m.mean_limit,
                 "nees": interval_json(m.nees),
@@ -239,8 +239,34 @@ pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
     format!("{value}\n")
 }
 
+/// Appends the inputs and readings of step `k` (empty cells past the end
+/// and for dropped readings).
+fn write_log_cells(s: &mut String, traj: &super::plant::Trajectory, k: usize) {
+    let (m, p) = (traj.m, traj.p);
+    for j in 0..m {
+        match traj.u.get(k * m + j).filter(|_| k < traj.steps) {
+            Some(v) => {
+                let _ = write!(s, ",{v:?}");
+            }
+            None => s.push(','),
+        }
+    }
+    for j in 0..p {
+        let valid = traj.valid.get(k * p + j).copied().unwrap_or(false);
+        match traj.y.get(k * p + j).filter(|_| valid && k < traj.steps) {
+            Some(v) => {
+                let _ = write!(s, ",{v:?}");
+            }
+            None => s.push(','),
+        }
+    }
+}
+
 /// Writes the time series: step, time, then per state its truth, then per
-/// format and state its estimate and its error.
+/// format and state its estimate and its error, then the inputs and the
+/// readings named as in the model (a dropped reading is an empty cell; the
+/// last row, the final state, has neither), so that the file is also a log
+/// `lookout replay --ignore-other-columns` reads.
 pub fn write_csv(path: &Path, design: &Design, r: &RunResult) -> Result<(), CliError> {
     let names = design.state_names();
     let n = r.traj.n;
@@ -258,6 +284,10 @@ pub fn write_csv(path: &Path, design: &Design, r: &RunResult) -> Result<(), CliE
             );
         }
     }
+    let (inputs, outputs) = crate::replay::log::column_names(design);
+    for name in inputs.iter().chain(&outputs) {
+        let _ = write!(s, ",{name}");
+    }
     s.push('\n');
     for k in 0..=r.traj.steps {
         let _ = write!(s, "{k},{:?}", k as f64 * t);
@@ -271,6 +301,7 @@ pub fn write_csv(path: &Path, design: &Design, r: &RunResult) -> Result<(), CliE
                 let _ = write!(s, ",{xh:?},{:?}", x - xh);
             }
         }
+        write_log_cells(&mut s, &r.traj, k);
         s.push('\n');
     }
     lookout_design::emit::write_file(path, s.as_bytes())

@@ -29,7 +29,8 @@ const FONT_PATHS: &[&str] = &[
 /// Largest font file read (bytes).
 const MAX_FONT_BYTES: u64 = 64 << 20;
 
-const WIDTH: u32 = 1400;
+/// Width of every plot (pixels).
+pub const WIDTH: u32 = 1400;
 const PANEL_HEIGHT: u32 = 260;
 
 /// One colour and stroke per format: the f64 reference wide and pale, the
@@ -103,22 +104,47 @@ pub fn check_path(path: &Path, n: usize) -> Result<bool, CliError> {
 }
 
 /// Writes the plot; the format follows the file's extension (either case).
-/// The image is drawn in memory and written whole through
-/// [`lookout_design::emit::write_file`] (never through a device, FIFO or
-/// directory; never half written).
 pub fn write(path: &Path, font: Option<&Path>, d: &Design, r: &RunResult) -> Result<(), CliError> {
     let n = d.n();
     let png = check_path(path, n)?;
-    register_font(font)?;
     // The right column holds two square pole charts of 460 px.
     let height = (PANEL_HEIGHT * n.max(2) as u32 + 60).max(2 * 460 + 60);
+    render(path, font, png, height, &RunPlot(d, r))
+}
+
+struct RunPlot<'a>(&'a Design, &'a RunResult);
+
+impl Drawing for RunPlot<'_> {
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), String> {
+        draw(root, self.0, self.1)
+    }
+}
+
+/// A picture that can be drawn on either backend.
+pub trait Drawing {
+    /// Draws on `root`.
+    fn draw<DB: DrawingBackend>(&self, root: &DrawingArea<DB, Shift>) -> Result<(), String>;
+}
+
+/// Draws `what` at [`WIDTH`] × `height` with the font registered, in memory,
+/// and writes it whole through [`lookout_design::emit::write_file`] (never
+/// through a device, FIFO or directory; never half written): PNG when `png`,
+/// else SVG.
+pub fn render(
+    path: &Path,
+    font: Option<&Path>,
+    png: bool,
+    height: u32,
+    what: &impl Drawing,
+) -> Result<(), CliError> {
+    register_font(font)?;
     let fail =
         |e: String| CliError::Failure(format!("{}: cannot draw the plot: {e}", path.display()));
     let bytes = if png {
         let mut rgb = vec![0_u8; WIDTH as usize * height as usize * 3];
         {
             let root = BitMapBackend::with_buffer(&mut rgb, (WIDTH, height)).into_drawing_area();
-            draw(&root, d, r).map_err(fail)?;
+            what.draw(&root).map_err(fail)?;
             root.present().map_err(|e| fail(e.to_string()))?;
         }
         let mut out = Vec::new();
@@ -135,7 +161,7 @@ pub fn write(path: &Path, font: Option<&Path>, d: &Design, r: &RunResult) -> Res
         let mut svg = String::new();
         {
             let root = SVGBackend::with_string(&mut svg, (WIDTH, height)).into_drawing_area();
-            draw(&root, d, r).map_err(fail)?;
+            what.draw(&root).map_err(fail)?;
             root.present().map_err(|e| fail(e.to_string()))?;
         }
         svg.into_bytes()
@@ -302,7 +328,7 @@ fn marks<DB: DrawingBackend>(
 /// Tick label for an axis spanning `span`: plain decimals with as many
 /// digits as the span needs, scientific notation for very small or large
 /// values.
-fn tick(v: f64, span: f64) -> String {
+pub fn tick(v: f64, span: f64) -> String {
     if v == 0.0 {
         return "0".into();
     }

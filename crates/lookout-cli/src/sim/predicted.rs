@@ -4,9 +4,10 @@
 
 use super::RunResult;
 use super::metrics::Metrics;
+use super::plant::Trajectory;
 use super::runtime::{Format, FormatRun};
 use lookout_design::Design;
-use lookout_design::fixed_point::{FormKind, NumberKind, accuracy::model_form_of};
+use lookout_design::fixed_point::{Deviation, FormKind, NumberKind, accuracy::model_form_of};
 
 /// The prediction for one format's run.
 #[derive(Debug, Clone)]
@@ -21,7 +22,8 @@ pub struct Check {
     pub exceeded: bool,
 }
 
-fn kind(format: Format) -> NumberKind {
+/// The analysis' name for a format.
+pub fn kind(format: Format) -> NumberKind {
     match format {
         Format::F64 => NumberKind::F64,
         Format::F32 => NumberKind::F32,
@@ -38,37 +40,25 @@ fn outside(values: &[f64], width: usize, exps: &[i8]) -> bool {
     })
 }
 
+/// The form simulate runs in every format: the model's, fused for a held
+/// observer (as `runtime` builds its tables).
+pub fn simulated_form(design: &Design) -> FormKind {
+    model_form_of(design.gain.is_some(), design.model.observer.form)
+}
+
+/// The design's proven deviation of `format` from the exact observer, for
+/// the form simulate runs (`format_accuracy` in `lookout design --json`);
+/// `None` without `[fixed_point]`.
+pub fn design_deviation(design: &Design, format: Format) -> Option<&Deviation> {
+    let fx = design.fixed_point.as_ref()?;
+    fx.accuracy.get(simulated_form(design), kind(format))
+}
+
 /// The check of `run` (`None` for f64 or without `[fixed_point]`).
 pub fn check(design: &Design, r: &RunResult, run: &FormatRun, m: &Metrics) -> Option<Check> {
-    let fx = design.fixed_point.as_ref()?;
-    if run.format == Format::F64 {
-        return None;
-    }
-    let form: FormKind = model_form_of(design.gain.is_some(), design.model.observer.form);
-    let this = fx.accuracy.get(form, kind(run.format))?;
-    let reference = fx.accuracy.get(form, NumberKind::F64)?;
-    if this.refused.is_some() || reference.refused.is_some() {
-        return None;
-    }
-    let bound: Vec<f64> = this
-        .total
-        .iter()
-        .zip(&reference.total)
-        .map(|(a, b)| a + b)
-        .collect();
+    let bound = bound(design, run.format)?;
     let f64_run = r.formats.first().map(|(f, _)| f);
-    let not_covered = if run.saturations > 0 {
-        Some("the run saturated".to_string())
-    } else if r.traj.dropped > 0 || run.gated > 0 {
-        Some("readings were dropped or gated (the estimate then runs open loop)".to_string())
-    } else if outside(&r.traj.u, r.traj.m, &fx.input_exponents)
-        || outside(&r.traj.y, r.traj.p, &fx.output_exponents)
-        || f64_run.is_some_and(|f| outside(&f.estimate, r.traj.n, &fx.state_exponents))
-    {
-        Some("a signal left its scale".to_string())
-    } else {
-        None
-    };
+    let not_covered = not_covered(design, &r.traj, run, f64_run);
     let exceeded = not_covered.is_none()
         && m.max_deviation_from_f64
             .iter()
@@ -79,6 +69,49 @@ pub fn check(design: &Design, r: &RunResult, run: &FormatRun, m: &Metrics) -> Op
         not_covered,
         exceeded,
     })
+}
+
+/// The design's bound on |x̂ − x̂_f64| per state for `format`: its deviation
+/// from the exact observer plus the f64 observer's (`None` for f64, without
+/// `[fixed_point]`, or where the analysis refused).
+pub fn bound(design: &Design, format: Format) -> Option<Vec<f64>> {
+    if format == Format::F64 {
+        return None;
+    }
+    let this = design_deviation(design, format)?;
+    let reference = design_deviation(design, Format::F64)?;
+    if this.refused.is_some() || reference.refused.is_some() {
+        return None;
+    }
+    Some(
+        this.total
+            .iter()
+            .zip(&reference.total)
+            .map(|(a, b)| a + b)
+            .collect(),
+    )
+}
+
+/// Why the bound does not cover `run` over `traj`, if so.
+pub fn not_covered(
+    design: &Design,
+    traj: &Trajectory,
+    run: &FormatRun,
+    f64_run: Option<&FormatRun>,
+) -> Option<String> {
+    let fx = design.fixed_point.as_ref()?;
+    if run.saturations > 0 {
+        Some("the run saturated".to_string())
+    } else if traj.dropped > 0 || run.gated > 0 {
+        Some("readings were dropped or gated (the estimate then runs open loop)".to_string())
+    } else if outside(&traj.u, traj.m, &fx.input_exponents)
+        || outside(&traj.y, traj.p, &fx.output_exponents)
+        || f64_run.is_some_and(|f| outside(&f.estimate, traj.n, &fx.state_exponents))
+    {
+        Some("a signal left its scale".to_string())
+    } else {
+        None
+    }
 }
 
 impl Check {

@@ -1,7 +1,7 @@
 //! What a run is judged against, computed once from the design and the
 //! simulated noise (never from the run itself): the steady error covariance,
-//! the innovation covariance, the rounding gain of the error dynamics and
-//! the sample spacing that makes errors nearly independent.
+//! the innovation covariance and the sample spacing that makes errors nearly
+//! independent.
 
 use super::options::SimOptions;
 use super::plant;
@@ -24,10 +24,6 @@ pub fn test_confidence(n: usize) -> f64 {
 /// state (split over states and steps: Bonferroni).
 pub const BAND_MISS: f64 = 1e-3;
 
-/// Without noise the band is this multiple of the predicted rounding
-/// deviation (plus the f64 run's residual).
-pub const ROUNDING_MULTIPLE: f64 = 10.0;
-
 /// The design's statistics for one set of simulation options.
 #[derive(Debug, Clone)]
 pub struct Reference {
@@ -45,10 +41,6 @@ pub struct Reference {
     pub white_innovation: bool,
     /// Where Σ comes from, for the report.
     pub source: &'static str,
-    /// Γ = Σ_k |Fᵏ| (entrywise), truncated when the terms fall below 1e-9
-    /// of the sum or after 20 000 terms: a per-step error bounded by δ
-    /// entrywise leaves a deviation below Γ δ.
-    pub rounding_gain: DMatrix<f64>,
     /// Spacing d of nearly independent samples: ρ(F)^d ≤ 0.01.
     pub spacing: usize,
     /// k of the k·σ band (see [`band_multiple`]).
@@ -64,23 +56,6 @@ pub fn band_multiple(n: usize, steps: usize) -> f64 {
     lookout_design::chi_square_limit(1, 1.0 - BAND_MISS / cells)
         .unwrap_or(25.0)
         .sqrt()
-}
-
-/// Σ_k |Fᵏ|, entrywise.
-fn rounding_gain(f: &DMatrix<f64>) -> DMatrix<f64> {
-    let n = f.nrows();
-    let mut power = DMatrix::<f64>::identity(n, n);
-    let mut sum = DMatrix::<f64>::identity(n, n);
-    for _ in 0..20_000 {
-        power = f * &power;
-        let term = power.abs();
-        let done = term.max() <= 1e-9 * sum.max();
-        sum += term;
-        if done || !sum.max().is_finite() {
-            break;
-        }
-    }
-    sum
 }
 
 impl Reference {
@@ -140,9 +115,8 @@ impl Reference {
             source: if noisy {
                 source
             } else {
-                "no simulated noise: the predicted rounding deviation"
+                "no simulated noise: the deviation bound plus the f64 run's residual"
             },
-            rounding_gain: rounding_gain(&design.f),
             spacing,
             k: band_multiple(n, opts.steps),
             f: design.f.clone(),

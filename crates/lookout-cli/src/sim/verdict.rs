@@ -9,43 +9,9 @@
 //! (K·p) degrees; the test accepts when the average lies in the two-sided
 //! interval of that law at the stated confidence.
 
-/// A time average and its two-sided chi-square acceptance interval.
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct Interval {
-    /// The average of the samples.
-    pub value: f64,
-    /// Lower end of the interval.
-    pub low: f64,
-    /// Upper end.
-    pub high: f64,
-    /// Samples averaged (K).
-    pub samples: usize,
-    /// Degrees of freedom of each sample.
-    pub dof: usize,
-}
-
-impl Interval {
-    /// The two-sided `confidence` interval of the average of `samples`
-    /// chi-square values with `dof` degrees each: χ²_{K·dof}((1 ∓ c)/2) / K;
-    /// `None` without samples.
-    pub fn chi_square(value: f64, samples: usize, dof: usize, confidence: f64) -> Option<Self> {
-        let total = u32::try_from(samples.checked_mul(dof)?).ok()?;
-        let tail = 0.5 * (1.0 - confidence);
-        let k = samples as f64;
-        Some(Self {
-            value,
-            low: lookout_design::chi_square_limit(total, tail)? / k,
-            high: lookout_design::chi_square_limit(total, 1.0 - tail)? / k,
-            samples,
-            dof,
-        })
-    }
-
-    /// Whether the average lies inside.
-    pub fn holds(&self) -> bool {
-        self.value >= self.low && self.value <= self.high
-    }
-}
+/// The chi-square interval of a time average: one implementation, in the
+/// host library (also used by `lookout replay`).
+pub use lookout_design::replay::Interval;
 
 /// What a format's run amounts to.
 #[derive(Debug, Clone, PartialEq)]
@@ -102,9 +68,7 @@ pub fn mean_within(values: &[f64], limit: f64) -> (f64, bool) {
 
 /// z with P(|z| ≤ z) = `confidence` for a standard normal z.
 pub fn normal_quantile(confidence: f64) -> f64 {
-    lookout_design::chi_square_limit(1, confidence)
-        .unwrap_or(10.83)
-        .sqrt()
+    lookout_design::replay::normal_quantile(confidence).unwrap_or(10.83f64.sqrt())
 }
 
 #[cfg(test)]

@@ -348,19 +348,7 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
     finite::check(&design)?;
     if let Some(spec) = &design.model.fixed_point {
         let state_names = design.state_names();
-        let tables = crate::fixed_point::FloatTables {
-            state_names: &state_names,
-            form: design.model.observer.form,
-            ad: &design.ad,
-            bd: &design.bd,
-            cd: &design.cd,
-            dd: &design.dd,
-            gain: design.gain.as_ref(),
-            f: &design.f,
-            g: &design.g,
-            h: &design.h,
-            spectral_radius: design.spectral_radius,
-        };
+        let tables = crate::fixed_point::FloatTables::of(&design, &state_names);
         let fixed =
             crate::fixed_point::design(&tables, spec).map_err(|e| DesignError::Unsupported {
                 origin: origin.to_string(),
@@ -373,6 +361,21 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
                 .iter()
                 .map(|(k, m)| Warning::new(k.clone(), m.clone())),
         );
+        if let Some(g) = &design.gate {
+            let ty = crate::fixed_point::format_name(fixed.format);
+            if design.p() <= crate::emit::MAX_FIXED_GATE_OUTPUTS
+                && crate::emit::gate::fixed(ty, g, &fixed.output_exponents).is_none()
+            {
+                return Err(DesignError::Unsupported {
+                    origin: origin.to_string(),
+                    key: "observer.kalman.gate_probability",
+                    message: format!(
+                        "the innovation gate (limit {:e} on rᵀS⁻¹r) cannot be stored in {ty} at the output scales; choose a gate probability (or threshold) whose limit is representable, e.g. 0.99–0.9999, or remove the gate",
+                        g.limit
+                    ),
+                });
+            }
+        }
         if design.gate.is_some() && design.p() > crate::emit::MAX_FIXED_GATE_OUTPUTS {
             early_warnings.push(Warning::new(
                 "observer.gate_probability",

@@ -120,7 +120,7 @@ pub const MAX_FIXED_GATE_OUTPUTS: usize = 8;
 /// The fixed-point gate literal for `ty` ("Q15" or "Q31"), `None` when the
 /// gate cannot be built (more than [`MAX_FIXED_GATE_OUTPUTS`] outputs, or a
 /// value outside the format).
-pub(super) fn fixed(ty: &str, g: &GateDesign, output: &[i8]) -> Option<String> {
+pub(crate) fn fixed(ty: &str, g: &GateDesign, output: &[i8]) -> Option<String> {
     macro_rules! by_size {
         ($q:ty) => {
             match output.len() {

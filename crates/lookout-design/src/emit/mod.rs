@@ -18,7 +18,7 @@
 
 mod file;
 mod fixed;
-mod gate;
+pub(crate) mod gate;
 mod literal;
 
 pub use file::{Written, read_limited, read_text_limited, write_file};

@@ -95,6 +95,34 @@ fn exact_tables(t: &FloatTables<'_>, form: FormKind) -> Option<Stored> {
     })
 }
 
+/// The deviation of `form`'s exact tables run in the float `format` when
+/// every state, input and reading stays below the magnitudes `x`, `u`, `y`:
+/// the analysis behind [`Accuracy`] at other signal bounds than the scales,
+/// for a model without `[fixed_point]`. `None` for a Q format (its tables
+/// need scales) or a form `t` has no tables for.
+pub fn float_deviation(
+    t: &FloatTables<'_>,
+    form: FormKind,
+    format: NumberKind,
+    (x, u, y): (&[f64], &[f64], &[f64]),
+) -> Option<Deviation> {
+    if !matches!(format, NumberKind::F64 | NumberKind::F32) {
+        return None;
+    }
+    let stored = exact_tables(t, form)?;
+    let s = Signals {
+        x: x.to_vec(),
+        u: u.to_vec(),
+        y: y.to_vec(),
+    };
+    Some(deviation::predict(
+        (t.f, t.g, t.h),
+        &stored.rounded(format),
+        format,
+        &s,
+    ))
+}
+
 /// Peak ‖Fᵏ‖∞ of S⁻¹ F S, S = diag(2^sx), and its step.
 fn transient(f: &DMatrix<f64>, sx: &[i8]) -> (f64, f64) {
     let n = f.nrows();

@@ -129,6 +129,25 @@ pub struct FloatTables<'a> {
     pub state_names: &'a [String],
 }
 
+impl<'a> FloatTables<'a> {
+    /// The tables of `design` (`state_names` its states' names).
+    pub fn of(design: &'a crate::Design, state_names: &'a [String]) -> Self {
+        Self {
+            form: design.model.observer.form,
+            ad: &design.ad,
+            bd: &design.bd,
+            cd: &design.cd,
+            dd: &design.dd,
+            gain: design.gain.as_ref(),
+            f: &design.f,
+            g: &design.g,
+            h: &design.h,
+            spectral_radius: design.spectral_radius,
+            state_names,
+        }
+    }
+}
+
 /// The smallest s with `value` < 2^s (`value` ≥ 0, finite), clamped to i8.
 fn exponent_above(value: f64) -> i8 {
     if value <= 0.0 {

@@ -110,12 +110,13 @@ mod reader;
 use std::path::Path;
 
 /// Largest model file read (bytes); a larger or endless file is refused.
-pub const MAX_MODEL_BYTES: u64 = 4 << 20;
+pub const MAX_MODEL_BYTES: u64 = 32 << 20;
 
 /// Most estimated states (the plant's and the disturbance states) a design
-/// takes: the dense O(n³) numerics and the tables stay within seconds and a
-/// few MiB below it.
-pub const MAX_STATES: usize = 100;
+/// takes: the dense O(n³) numerics stay within seconds and a few hundred MiB
+/// below it (400 states: 2–5 s and 90–212 MB in a release build, see the
+/// README's "Large plants").
+pub const MAX_STATES: usize = 500;
 
 pub use disturbances::{Disturbances, Entry, InputDisturbance, OutputBias, Shape};
 pub use error::{Location, ModelError, ModelErrorKind, ModelWarning};

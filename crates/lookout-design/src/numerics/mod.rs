@@ -7,7 +7,7 @@
 //! | zero-order hold, process noise | [`discretise`] | block exponentials; Van Loan (1978) |
 //! | eigenvalues | [`eig`] | Parlett–Reinsch balancing, Hessenberg, Francis double-shift QR (capped) |
 //! | observability | [`observability`](mod@observability) | staircase reduction (Van Dooren 1981) with Householder QR and column pivoting; PBH test per mode on small plants |
-//! | observer pole placement | [`place`] | Kautsky–Nichols–Van Dooren (1985) method 0 on the dual pair |
+//! | observer pole placement | [`place`] | Kautsky–Nichols–Van Dooren (1985) method 0 on the dual pair, bases from one Hessenberg reduction, sweeps on T⁻¹ (Woodbury); direct when every state is measured |
 //! | steady-state Kalman filter | [`dare`] | structure-preserving doubling (Chu, Fan, Lin, Wang 2004) |
 //!
 //! Every routine checks its input (shape, finiteness, symmetry/definiteness
@@ -19,7 +19,8 @@
 //! Non-goals: sparse or structured (banded, large-scale) problems; the state
 //! dimensions met on microcontrollers are small (n ≲ 30). The stages other
 //! than pole placement cost O(n³) time and O(n²) memory and are timed up to
-//! 400 states (README).
+//! 400 states (README). Pole placement is O(n³) when every state is measured
+//! (p = n) and O(n³ p) time, O(n² p) memory otherwise (`place`).
 
 mod balance;
 pub(crate) mod checks;
@@ -31,6 +32,8 @@ mod error;
 pub mod expm;
 pub mod observability;
 pub mod place;
+mod place_bases;
+mod place_knv;
 mod place_polynomial;
 mod staircase;
 mod subspace;

@@ -25,13 +25,16 @@
 //! polynomial, with a sensitivity warning); with several outputs it is
 //! refused with [`NumericsError::PoleMultiplicity`].
 //!
+//! When every state is measured (p = n) the sweep is not needed: orthogonal
+//! eigenvectors are KNV's optimum and `A − L C` is the real block form of
+//! the poles (see `place_knv`, which also states the cost of each step).
+//!
 //! The result is always verified by recomputing `eig(A − L C)`.
 
 use super::checks;
 use super::eig::eigenvalues;
 use super::error::{NumericsError, NumericsWarning, Result};
 use super::observability::observability;
-use super::subspace::{complement, null_space};
 use nalgebra::{Complex, DMatrix};
 
 type C64 = Complex<f64>;
@@ -154,7 +157,12 @@ fn place_scaled(
         other => other?,
     };
     let report = observability(a, c)?;
-    let dual = knv_state_feedback(&a.transpose(), &c.transpose(), &poles, opts.max_sweeps)?;
+    let dual = super::place_knv::knv_state_feedback(
+        &a.transpose(),
+        &c.transpose(),
+        &poles,
+        opts.max_sweeps,
+    )?;
     let gain = dual.k.transpose();
     let closed = a - &gain * c;
     let achieved_raw = eigenvalues("A - L C", &closed)?;
@@ -189,22 +197,22 @@ fn place_scaled(
 
 /// A requested pole with its role in the real assembly.
 #[derive(Debug, Clone, Copy)]
-struct Pole {
-    value: C64,
+pub(super) struct Pole {
+    pub(super) value: C64,
     /// For the member with positive imaginary part: index of its conjugate.
     /// For the member with negative imaginary part: index of the leader.
-    partner: Option<usize>,
+    pub(super) partner: Option<usize>,
     /// Occurrence number among equal poles (selects the starting basis vector).
-    occurrence: usize,
+    pub(super) occurrence: usize,
 }
 
 impl Pole {
-    fn leads(&self) -> bool {
+    pub(super) fn leads(&self) -> bool {
         self.value.im >= 0.0
     }
 }
 
-fn same(a: C64, b: C64) -> bool {
+pub(super) fn same(a: C64, b: C64) -> bool {
     (a - b).norm() <= SAME_POLE * a.norm().max(1.0)
 }
 
@@ -323,235 +331,6 @@ fn match_poles(requested: &[Pole], achieved: &[C64]) -> (Vec<C64>, f64, usize) {
         out.push(z);
     }
     (out, worst.0, worst.1)
-}
-
-struct Feedback {
-    k: DMatrix<f64>,
-    condition: f64,
-    sweeps: usize,
-}
-
-fn to_c(m: &DMatrix<f64>) -> DMatrix<C64> {
-    m.map(|v| C64::new(v, 0.0))
-}
-
-/// Real form `T` of the eigenvector matrix: a real pole's column is `xⱼ`, a
-/// pair (leader j, conjugate j̄) gives `Re xⱼ` at j and `Im xⱼ` at j̄.
-fn real_form(x: &DMatrix<C64>, poles: &[Pole]) -> DMatrix<f64> {
-    let n = x.nrows();
-    let mut t = DMatrix::<f64>::zeros(n, poles.len());
-    for (j, pl) in poles.iter().enumerate() {
-        if j >= x.ncols() {
-            break;
-        }
-        let col = x.column(j);
-        if pl.value.im == 0.0 {
-            t.set_column(j, &col.map(|v| v.re));
-        } else if let (true, Some(jj)) = (pl.leads(), pl.partner)
-            && jj < t.ncols()
-        {
-            t.set_column(j, &col.map(|v| v.re));
-            t.set_column(jj, &col.map(|v| v.im));
-        }
-    }
-    t
-}
-
-/// Real block-diagonal `Λ` matching [`real_form`]: `λ` for a real pole,
-/// `[[α, β], [−β, α]]` on rows/columns (j, j̄) for `α ± iβ`, so that `M T = T Λ`.
-fn real_lambda(poles: &[Pole]) -> DMatrix<f64> {
-    let n = poles.len();
-    let mut lam = DMatrix::<f64>::zeros(n, n);
-    for (j, pl) in poles.iter().enumerate() {
-        if pl.value.im == 0.0 {
-            lam[(j, j)] = pl.value.re;
-        } else if let (true, Some(jj)) = (pl.leads(), pl.partner)
-            && jj < n
-        {
-            let (al, be) = (pl.value.re, pl.value.im);
-            lam[(j, j)] = al;
-            lam[(j, jj)] = be;
-            lam[(jj, j)] = -be;
-            lam[(jj, jj)] = al;
-        }
-    }
-    lam
-}
-
-/// `|det|` of `t` with unit columns (KNV's measure of robustness; 1 for an
-/// orthogonal `t`, 0 for a singular one).
-fn normalised_det(t: &DMatrix<f64>) -> f64 {
-    let mut u = t.clone();
-    for mut c in u.column_iter_mut() {
-        let nrm = c.norm();
-        if nrm > 0.0 {
-            c /= nrm;
-        }
-    }
-    u.lu().determinant().abs()
-}
-
-/// KNV method 0 for `A − B K` (`b` n×m of full column rank).
-fn knv_state_feedback(
-    a: &DMatrix<f64>,
-    b: &DMatrix<f64>,
-    poles: &[Pole],
-    max_sweeps: usize,
-) -> Result<Feedback> {
-    let n = a.nrows();
-    let m = b.ncols();
-    let qr = b.clone().qr();
-    let u0 = qr.q();
-    let z = qr.r();
-    let u1t = complement(&u0).transpose();
-    let u1t_c = to_c(&u1t);
-    let a_c = to_c(a);
-    // Sⱼ for every pole (conjugates share the conjugated basis of their leader).
-    let mut bases: Vec<DMatrix<C64>> = Vec::with_capacity(n);
-    for pl in poles {
-        let basis = if pl.leads() {
-            if pl.value.im == 0.0 {
-                let shifted = a - DMatrix::<f64>::identity(n, n) * pl.value.re;
-                to_c(&null_space(&(&u1t * shifted)))
-            } else {
-                let shifted = &a_c - DMatrix::<C64>::identity(n, n) * pl.value;
-                null_space(&(&u1t_c * shifted))
-            }
-        } else {
-            DMatrix::zeros(n, m)
-        };
-        bases.push(basis);
-    }
-    for j in 0..n {
-        let Some(pl) = poles.get(j) else { continue };
-        if let (false, Some(leader)) = (pl.leads(), pl.partner) {
-            let conj = bases.get(leader).map(|s| s.map(|v| v.conj()));
-            if let (Some(cb), Some(slot)) = (conj, bases.get_mut(j)) {
-                *slot = cb;
-            }
-        }
-    }
-    // Starting X: basis vector `occurrence mod m` of each Sⱼ for a real pole;
-    // for a complex leader, (s_a + i s_b)/√2 from two basis vectors so that
-    // Re x and Im x are independent even when Sⱼ happens to be real.
-    let mut x = DMatrix::<C64>::zeros(n, n);
-    for (j, (pl, s)) in poles.iter().zip(&bases).enumerate() {
-        let k = s.ncols();
-        if k == 0 {
-            continue;
-        }
-        if pl.value.im > 0.0 && k >= 2 {
-            let a = (2 * pl.occurrence) % k;
-            let b = (2 * pl.occurrence + 1) % k;
-            let v =
-                (s.column(a) + s.column(b) * C64::new(0.0, 1.0)) * C64::new(0.5_f64.sqrt(), 0.0);
-            x.set_column(j, &v);
-        } else {
-            x.set_column(j, &s.column(pl.occurrence % k));
-        }
-        if let (true, Some(jj)) = (pl.value.im > 0.0, pl.partner) {
-            let v = x.column(j).map(|v| v.conj());
-            if jj < n {
-                x.set_column(jj, &v);
-            }
-        }
-    }
-    let mut sweeps = 0;
-    if m > 1 {
-        let mut det_old = normalised_det(&real_form(&x, poles));
-        while sweeps < max_sweeps {
-            sweeps += 1;
-            for (j, (pl, s)) in poles.iter().zip(&bases).enumerate() {
-                if !pl.leads() {
-                    continue;
-                }
-                // Real basis of the complement of all other (real-form)
-                // columns: one vector for a real pole, two for a pair.
-                let t = real_form(&x, poles);
-                let mut drop = vec![j];
-                if let (true, Some(jj)) = (pl.value.im > 0.0, pl.partner) {
-                    drop.push(jj);
-                }
-                drop.sort_unstable();
-                let q = to_c(&complement(&t.remove_columns_at(&drop)));
-                let proj = |v: &DMatrix<C64>| s * (s.adjoint() * v);
-                let cand = if q.ncols() >= 2 {
-                    // x ∝ P_S (q₁ ± i q₂): Re x ⊥ Im x with equal norms
-                    // before projection, i.e. x ⊥ conj(x).
-                    let i = C64::new(0.0, 1.0);
-                    let plus = proj(&(q.columns(0, 1) + q.columns(1, 1) * i));
-                    let minus = proj(&(q.columns(0, 1) - q.columns(1, 1) * i));
-                    if plus.norm() >= minus.norm() {
-                        plus
-                    } else {
-                        minus
-                    }
-                } else if q.ncols() == 1 {
-                    proj(&q.columns(0, 1).into_owned())
-                } else {
-                    continue;
-                };
-                let norm = cand.norm();
-                if norm > 1.0e-12 {
-                    let cand = cand / C64::new(norm, 0.0);
-                    x.set_column(j, &cand.column(0));
-                    if let (true, Some(jj)) = (pl.value.im > 0.0, pl.partner)
-                        && jj < n
-                    {
-                        x.set_column(jj, &cand.column(0).map(|v| v.conj()));
-                    }
-                }
-            }
-            let det = normalised_det(&real_form(&x, poles));
-            let done = (det - det_old).abs() <= 1.0e-10 * det;
-            det_old = det;
-            if done {
-                break;
-            }
-        }
-    }
-    let t = real_form(&x, poles);
-    let lam = real_lambda(poles);
-    let st = checks::singular_values("eigenvector matrix X", &t)?;
-    let smax = st.first().copied().unwrap_or(0.0);
-    let smin = st.last().copied().unwrap_or(0.0);
-    let condition = if smin > 0.0 {
-        smax / smin
-    } else {
-        f64::INFINITY
-    };
-    let singular = || NumericsError::Singular {
-        matrix: "eigenvector matrix X",
-        estimate: if condition.is_finite() {
-            1.0 / condition
-        } else {
-            0.0
-        },
-        threshold: n as f64 * f64::EPSILON,
-    };
-    if condition.is_nan() || 1.0 / condition <= n as f64 * f64::EPSILON {
-        return Err(singular());
-    }
-    // M = T Λ T⁻¹ from Tᵀ Mᵀ = (T Λ)ᵀ.
-    let mt = t
-        .transpose()
-        .lu()
-        .solve(&(&t * &lam).transpose())
-        .ok_or_else(singular)?;
-    let rhs = u0.transpose() * (a - mt.transpose());
-    let k = z
-        .solve_upper_triangular(&rhs)
-        .ok_or(NumericsError::Singular {
-            matrix: "R factor of C",
-            estimate: 0.0,
-            threshold: 0.0,
-        })?;
-    checks::finite("L", &k)?;
-    Ok(Feedback {
-        k,
-        condition,
-        sweeps,
-    })
 }
 
 /// One output and a pole repeated: the unique gain from the characteristic

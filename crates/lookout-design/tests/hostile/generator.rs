@@ -174,10 +174,10 @@ fn dim(r: &mut Rng, most: usize) -> usize {
         0..=79 => 1 + r.below(most as u64) as usize,
         80..=84 => 0,
         85..=96 => 1 + r.below(12) as usize,
-        // Large, but within the design's limit of 100 states (a 90-state
-        // Riccati solve takes seconds), or just past it (refused at once).
+        // Large (a 90-state Riccati solve takes seconds in a debug build),
+        // or just past the design's state limit (refused at once).
         97 | 98 => 20 + r.below(21) as usize,
-        _ => 101 + r.below(30) as usize,
+        _ => lookout_design::model::MAX_STATES + 1 + r.below(30) as usize,
     }
 }
 
