@@ -189,7 +189,7 @@ fn conversions(ty: &str) -> String {
     ] {
         let _ = writeln!(
             s,
-            "    /// The {what} in physical units as {ty} values at `SCALES.{exp}`\n    /// (v = q · 2^(e − fraction bits)); saturated beyond full scale, 0 for NaN.\n    pub fn {name}_to_q(v: &[f64; {len}]) -> [{q}; {len}] {{\n        to_q(v, &SCALES.{exp})\n    }}"
+            "    /// The {what} in physical units as {ty} values at `SCALES.{exp}`\n    /// (v = q · 2^(e − fraction bits)); saturated beyond full scale; a value that is not a number becomes 0.\n    pub fn {name}_to_q(v: &[f64; {len}]) -> [{q}; {len}] {{\n        to_q(v, &SCALES.{exp})\n    }}"
         );
     }
     for (what, name, len, exp) in [
