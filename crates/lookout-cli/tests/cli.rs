@@ -1,36 +1,12 @@
 //! The `lookout` binary as a user runs it: reports, JSON, emitted files and
 //! every kind of bad input.
 
-use serde_json::Value;
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::path::Path;
+mod common;
+use common::{json, lookout, scratch};
 
 const DEMO: &str = "../../examples/conveyor.toml";
 const DEMO_KALMAN: &str = "../../examples/conveyor_kalman.toml";
-
-fn lookout(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_lookout"))
-        .args(args)
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .unwrap()
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("lookout-cli-tests-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    dir.join(name)
-}
-
-fn json(args: &[&str]) -> Value {
-    let out = lookout(args);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    serde_json::from_slice(&out.stdout).unwrap()
-}
 
 /// A valid model with one edit applied to its text.
 const BASE: &str = r#"name = "bench_axis"

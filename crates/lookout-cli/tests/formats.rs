@@ -2,15 +2,8 @@
 //! precision or a form that amplifies rounding, and reports the predicted
 //! deviation of every form and format (text and `--json`).
 
-use std::process::{Command, Output};
-
-fn lookout(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_lookout"))
-        .args(args)
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .unwrap()
-}
+mod common;
+use common::lookout;
 
 fn cell() -> String {
     std::fs::read_to_string(concat!(

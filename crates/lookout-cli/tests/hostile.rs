@@ -6,17 +6,11 @@
 
 use std::path::{Path, PathBuf};
 use std::process::{Command, Output};
+mod common;
+use common::lookout;
 
 const FIXTURES: &str = "tests/fixtures/hostile";
 const DEMO: &str = "../../examples/conveyor.toml";
-
-fn lookout(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_lookout"))
-        .args(args)
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .unwrap()
-}
 
 /// A fresh, empty directory for one test.
 fn scratch_dir(test: &str) -> PathBuf {

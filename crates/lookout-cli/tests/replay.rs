@@ -4,36 +4,13 @@
 //! bad logs refused naming file, line and column.
 
 use serde_json::Value;
-use std::path::{Path, PathBuf};
-use std::process::{Command, Output};
+use std::path::Path;
+mod common;
+use common::{json, lookout, scratch};
 
 const HEATER: &str = "../../examples/bench_heater.toml";
 const HEATER_LOG: &str = "../../examples/bench_heater.csv";
 const HEATER_CHECK: &str = "../../examples/bench_heater_check.csv";
-
-fn lookout(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_lookout"))
-        .args(args)
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .unwrap()
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("lookout-replay-tests-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    dir.join(name)
-}
-
-fn json(args: &[&str]) -> Value {
-    let out = lookout(args);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    serde_json::from_slice(&out.stdout).unwrap()
-}
 
 fn f64_format(v: &Value) -> &Value {
     &v["formats"][0]

@@ -6,35 +6,12 @@
 
 use serde_json::Value;
 use std::path::PathBuf;
-use std::process::{Command, Output};
+mod common;
+use common::{json, lookout, scratch};
 
 const DEMO: &str = "../../examples/conveyor.toml";
 const DEMO_LOAD: &str = "../../examples/conveyor_load.toml";
 const DEMO_KALMAN: &str = "../../examples/conveyor_kalman.toml";
-
-fn lookout(args: &[&str]) -> Output {
-    Command::new(env!("CARGO_BIN_EXE_lookout"))
-        .args(args)
-        .current_dir(env!("CARGO_MANIFEST_DIR"))
-        .output()
-        .unwrap()
-}
-
-fn scratch(name: &str) -> PathBuf {
-    let dir = std::env::temp_dir().join(format!("lookout-sim-tests-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
-    dir.join(name)
-}
-
-fn json(args: &[&str]) -> Value {
-    let out = lookout(args);
-    assert!(
-        out.status.success(),
-        "{}",
-        String::from_utf8_lossy(&out.stderr)
-    );
-    serde_json::from_slice(&out.stdout).unwrap()
-}
 
 fn matrix(v: &Value) -> Vec<Vec<f64>> {
     v.as_array()
