@@ -40,3 +40,12 @@ impl From<DesignError> for CliError {
         CliError::Design(e)
     }
 }
+
+impl From<lookout_sim::SimError> for CliError {
+    fn from(e: lookout_sim::SimError) -> Self {
+        match e {
+            lookout_sim::SimError::BadInput(m) => CliError::BadInput(m),
+            lookout_sim::SimError::Failure(m) => CliError::Failure(m),
+        }
+    }
+}

@@ -1,67 +1,35 @@
 //! `lookout simulate`: the observer, stepped by the real runtime in every
 //! number format, against a simulated true plant.
 //!
-//! One run: the true plant (the model's plant, perturbed and sampled on its
-//! own, see [`plant`]) is simulated once and its readings recorded; each
-//! format's observer ([`runtime`]) is driven over the same record; the
-//! errors are measured against the truth and the f64 observer
-//! ([`metrics`]). `--sweep N` repeats that for N random perturbations
-//! ([`sweep`]).
+//! The engine is the library `lookout_sim` (one run: [`run_once`]); this
+//! module turns the options into its settings ([`options`]), prints
+//! ([`output`]), plots ([`plot`]) and runs `--sweep N`, N runs over random
+//! perturbations ([`sweep`]).
 
-pub mod metrics;
 pub mod options;
 pub mod output;
-pub mod plant;
 pub mod plot;
-pub mod predicted;
-pub mod reference;
-pub mod rng;
-pub mod runtime;
-pub mod signal;
 pub mod sweep;
-pub mod verdict;
+
+pub use lookout_sim::{
+    RunResult, Setup, formats, metrics, plant, predicted, reference, run_formats, runtime, verdict,
+};
 
 use crate::cli::SimArgs;
 use crate::error::CliError;
 use lookout_design::Design;
-use metrics::Metrics;
 use options::SimOptions;
-use plant::{Trajectory, TruePlant};
 use reference::Reference;
-use runtime::{Format, FormatRun};
+use runtime::Format;
 
-/// Everything one run produced.
-#[derive(Debug, Clone)]
-pub struct RunResult {
-    /// The recorded plant run.
-    pub traj: Trajectory,
-    /// Each format that ran, with its metrics (f64 first).
-    pub formats: Vec<(FormatRun, Metrics)>,
-    /// Formats that could not be built, with the reason.
-    pub skipped: Vec<(Format, String)>,
-    /// Settling band per state (the f64 observer's; each format has its
-    /// own in its metrics).
-    pub tolerance: Vec<f64>,
-    /// Where the band comes from.
-    pub tolerance_source: String,
-    /// Largest relative change applied to an entry of A or B.
-    pub perturbation: f64,
-    /// Non-fatal findings.
-    pub warnings: Vec<String>,
-}
-
-/// The formats a run uses by default: f64, f32 and the `[fixed_point]`
-/// format the model was designed for (the other Q format only on request,
-/// `--formats`).
-pub fn formats(design: &Design) -> Vec<Format> {
-    let mut out = vec![Format::F64, Format::F32];
-    if let Some(fx) = &design.fixed_point {
-        out.push(match fx.format {
-            lookout_design::model::FixedFormat::Q31 => Format::Q31,
-            lookout_design::model::FixedFormat::Q15 => Format::Q15,
-        });
-    }
-    out
+/// One run of the engine with the options' settings and plant seed `seed`.
+pub fn run_once(
+    design: &Design,
+    opts: &SimOptions,
+    setup: &Setup,
+    seed: u64,
+) -> Result<RunResult, CliError> {
+    Ok(lookout_sim::run_once(design, opts, setup, seed)?)
 }
 
 /// `--formats`: a comma-separated list; f64 always runs first (every
@@ -93,106 +61,6 @@ pub fn requested_formats(design: &Design, text: Option<&str>) -> Result<Vec<Form
     Ok(out)
 }
 
-/// What every run of one `simulate` call shares.
-#[derive(Debug, Clone)]
-pub struct Setup {
-    /// The design's statistics the runs are judged against.
-    pub reference: Reference,
-    /// The formats to run, f64 first.
-    pub formats: Vec<Format>,
-}
-
-/// One run with plant seed `seed`, judged against `reference`.
-pub fn run_once(
-    design: &Design,
-    opts: &SimOptions,
-    setup: &Setup,
-    seed: u64,
-) -> Result<RunResult, CliError> {
-    let reference = &setup.reference;
-    let plant = TruePlant::of(design, opts.mismatch, seed)?;
-    let (traj, warnings) = plant::record(design, &plant, opts, seed)?;
-    if let Some(v) = traj.truth.iter().chain(&traj.y).find(|v| !v.is_finite()) {
-        return Err(CliError::BadInput(format!(
-            "the simulated plant reaches {v} (not a finite f64): reduce --input, --process-noise, --measurement-noise, --disturbance or --outlier-size"
-        )));
-    }
-    let x0: Vec<f64> = traj
-        .truth
-        .iter()
-        .zip(&opts.initial_error)
-        .map(|(x, e)| x - e)
-        .collect();
-    let (runs, skipped) = run_formats(design, &setup.formats, &traj, &x0)?;
-    let reference_run = runs
-        .first()
-        .cloned()
-        .ok_or_else(|| CliError::Failure("the f64 observer did not run".into()))?;
-    let mut formats: Vec<(FormatRun, Metrics)> = runs
-        .into_iter()
-        .map(|r| {
-            let m = metrics::measure(
-                design,
-                &traj,
-                &r,
-                &reference_run,
-                reference,
-                opts.tolerance.as_deref(),
-            );
-            (r, m)
-        })
-        .collect();
-    metrics::carry_f64_verdict(&mut formats);
-    let tolerance = formats
-        .first()
-        .map(|(_, m)| m.band.clone())
-        .unwrap_or_default();
-    let tolerance_source = metrics::tolerance_source(design, opts, reference);
-    Ok(RunResult {
-        traj,
-        formats,
-        skipped,
-        tolerance,
-        tolerance_source,
-        perturbation: plant.perturbation,
-        warnings,
-    })
-}
-
-/// Formats that could not be built, with the reason.
-pub type Skipped = Vec<(Format, String)>;
-
-/// Runs each of `formats` (f64 first) over `traj` from the estimate `x0`.
-/// A Q format the design was not made for is skipped, with the reason, when
-/// its tables cannot be built.
-pub fn run_formats(
-    design: &Design,
-    formats: &[Format],
-    traj: &Trajectory,
-    x0: &[f64],
-) -> Result<(Vec<FormatRun>, Skipped), CliError> {
-    let designed_format = design.fixed_point.as_ref().map(|f| match f.format {
-        lookout_design::model::FixedFormat::Q31 => Format::Q31,
-        lookout_design::model::FixedFormat::Q15 => Format::Q15,
-    });
-    let mut runs = Vec::new();
-    let mut skipped = Vec::new();
-    for &format in formats {
-        match runtime::run(design, format, traj, x0) {
-            Ok(r) => runs.push(r),
-            // The other Q format was not designed for: it may not fit.
-            Err(CliError::BadInput(why))
-                if matches!(format, Format::Q31 | Format::Q15)
-                    && Some(format) != designed_format =>
-            {
-                skipped.push((format, why));
-            }
-            Err(e) => return Err(e),
-        }
-    }
-    Ok((runs, skipped))
-}
-
 /// Largest memory the recorded time series of one run may take (bytes):
 /// the truth, inputs, readings and every format's estimates are kept for
 /// the metrics, the CSV and the plot.
@@ -217,7 +85,7 @@ pub fn prepare(design: &Design, args: &SimArgs) -> Result<(SimOptions, Setup), C
         formats: requested_formats(design, args.formats.as_deref())?,
     };
     if args.initial_error.is_none() {
-        opts.initial_error = setup.reference.initial_error();
+        opts.run.initial_error = setup.reference.initial_error();
     }
     check_memory(design, &opts, setup.formats.len(), args.csv.is_some())?;
     Ok((opts, setup))

@@ -1,56 +1,28 @@
 //! The `simulate` options, checked: every bad value is refused here with a
 //! message naming the option (exit code 2), before anything is simulated.
 
-use super::signal::InputSignal;
 use crate::cli::SimArgs;
-use crate::error::CliError;
+use lookout_sim::signal::InputSignal;
+use lookout_sim::{InputDisturbance, RunConfig};
 
-/// A constant or step disturbance added to one input channel of the true
-/// plant (the observers never see it).
-#[derive(Debug, Clone, Copy, PartialEq)]
-pub struct InputDisturbance {
-    /// The input channel it adds to.
-    pub input: usize,
-    /// Its size, in that input's unit.
-    pub size: f64,
-    /// The first step it acts on (0: from the start).
-    pub start: usize,
-}
-
-/// Checked simulation settings.
+/// The checked options of `lookout simulate`: the settings of each run and
+/// how many runs to make.
 #[derive(Debug, Clone)]
 pub struct SimOptions {
-    /// Steps simulated.
-    pub steps: usize,
-    /// Seed of every random stream.
-    pub seed: u64,
-    /// Initial estimation error x − x̂ of each estimated state.
-    pub initial_error: Vec<f64>,
-    /// The commanded input.
-    pub input: InputSignal,
-    /// Standard deviation per sample of the noise on each plant state
-    /// (`None`: the model's Kalman noise, or none).
-    pub process_noise: Option<f64>,
-    /// Standard deviation per sample of the noise on each output (`None`:
-    /// the model's Kalman measurement noise, or none).
-    pub measurement_noise: Option<f64>,
-    /// Relative perturbation of A and B: each entry times 1 + δ·ξ, ξ
-    /// uniform in [−1, 1].
-    pub mismatch: f64,
-    /// A disturbance on one input of the true plant.
-    pub disturbance: Option<InputDisturbance>,
-    /// Probability that a reading is missing (per step and output).
-    pub dropout_rate: f64,
-    /// Probability that a reading is an outlier.
-    pub outlier_rate: f64,
-    /// Size of an outlier, in the output's unit (sign random).
-    pub outlier_size: f64,
-    /// Settling band of each estimated state (`None`: 2 % of the f64
-    /// observer's largest error of that state).
-    pub tolerance: Option<Vec<f64>>,
+    /// The settings every run shares (its seed is that of the first run).
+    pub run: RunConfig,
     /// Monte Carlo runs (`None`: one run).
     pub sweep: Option<usize>,
 }
+
+impl std::ops::Deref for SimOptions {
+    type Target = RunConfig;
+    fn deref(&self) -> &RunConfig {
+        &self.run
+    }
+}
+
+use crate::error::CliError;
 
 fn bad(message: String) -> CliError {
     CliError::BadInput(message)
@@ -163,7 +135,7 @@ impl SimOptions {
                 "--outlier-size: must be a finite number, got {outlier_size}"
             )));
         }
-        Ok(Self {
+        let run = RunConfig {
             steps,
             seed: args.seed,
             initial_error,
@@ -178,8 +150,8 @@ impl SimOptions {
             outlier_rate: rate("outlier-rate", args.outlier_rate)?,
             outlier_size,
             tolerance,
-            sweep,
-        })
+        };
+        Ok(Self { run, sweep })
     }
 }
 

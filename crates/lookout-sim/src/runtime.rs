@@ -32,7 +32,7 @@
 //! padded run equals an unpadded one bit for bit.
 
 use super::plant::Trajectory;
-use crate::error::CliError;
+use crate::SimError;
 use lookout::{
     ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedPredictorObserver, FixedPredictorTables,
@@ -96,10 +96,10 @@ pub struct FormatRun {
 }
 
 /// Refuses models the dispatch does not cover.
-pub fn check_sizes(design: &Design) -> Result<(), CliError> {
+pub fn check_sizes(design: &Design) -> Result<(), SimError> {
     let (n, m, p) = (design.n(), design.m(), design.p());
     if n == 0 || n > MAX_N || m > MAX_M || p == 0 || p > MAX_P {
-        return Err(CliError::BadInput(format!(
+        return Err(SimError::BadInput(format!(
             "{}: simulate supports 1 to {MAX_N} states (disturbance states included), up to {MAX_M} inputs and 1 to {MAX_P} outputs; this model has n = {n}, m = {m}, p = {p}",
             design.origin
         )));
@@ -113,12 +113,12 @@ pub fn run(
     format: Format,
     traj: &Trajectory,
     x0: &[f64],
-) -> Result<FormatRun, CliError> {
+) -> Result<FormatRun, SimError> {
     macro_rules! dispatch {
         ($($n:literal)*) => {
             match design.n() {
                 $($n => run_sized::<$n, MAX_M, MAX_P>(design, format, traj, x0),)*
-                _ => check_sizes(design).and(Err(CliError::Failure("size dispatch".into()))),
+                _ => check_sizes(design).and(Err(SimError::Failure("size dispatch".into()))),
             }
         };
     }
@@ -155,14 +155,14 @@ impl Scalar for f32 {
 fn padded<T: Scalar, const R: usize, const C: usize>(
     name: &str,
     m: &DMatrix<f64>,
-) -> Result<Matrix<T, R, C>, CliError> {
-    let zero = T::of(0.0).ok_or_else(|| CliError::Failure("zero".into()))?;
+) -> Result<Matrix<T, R, C>, SimError> {
+    let zero = T::of(0.0).ok_or_else(|| SimError::Failure("zero".into()))?;
     let mut rows = [[zero; C]; R];
     for (i, row) in rows.iter_mut().enumerate().take(m.nrows()) {
         for (j, slot) in row.iter_mut().enumerate().take(m.ncols()) {
             let v = m.get((i, j)).copied().unwrap_or(0.0);
             *slot = T::of(v).ok_or_else(|| {
-                CliError::BadInput(format!(
+                SimError::BadInput(format!(
                     "table {name}: entry ({i}, {j}) = {v:e} does not fit the number format"
                 ))
             })?;
@@ -202,7 +202,7 @@ fn recovery<T: Scalar>(g: &lookout_design::design::GateDesign) -> Recovery<T> {
 
 fn float_tables<T: Scalar, const N: usize, const M: usize, const P: usize>(
     d: &Design,
-) -> Result<FloatTables<T, N, M, P>, CliError> {
+) -> Result<FloatTables<T, N, M, P>, SimError> {
     let gate = match &d.gate {
         None => None,
         Some(g) => Some(Gate {
@@ -213,7 +213,7 @@ fn float_tables<T: Scalar, const N: usize, const M: usize, const P: usize>(
             recovery: recovery(g),
         }),
     };
-    let plant = || -> Result<Plant<T, N, M, P>, CliError> {
+    let plant = || -> Result<Plant<T, N, M, P>, SimError> {
         Ok(Plant {
             a: padded("ad", &d.ad)?,
             b: padded("bd", &d.bd)?,
@@ -391,7 +391,7 @@ pub(crate) fn run_sized<const N: usize, const M: usize, const P: usize>(
     format: Format,
     traj: &Trajectory,
     x0: &[f64],
-) -> Result<FormatRun, CliError> {
+) -> Result<FormatRun, SimError> {
     match format {
         Format::F64 => run_float::<f64, N, M, P>(design, format, traj, x0),
         Format::F32 => run_float::<f32, N, M, P>(design, format, traj, x0),
@@ -405,7 +405,7 @@ fn run_float<T: Scalar, const N: usize, const M: usize, const P: usize>(
     format: Format,
     traj: &Trajectory,
     x0: &[f64],
-) -> Result<FormatRun, CliError> {
+) -> Result<FormatRun, SimError> {
     let x0 = padded_vec::<T, N>(x0);
     Ok(match float_tables::<T, N, M, P>(design)? {
         FloatTables::Predictor(t) => {
@@ -429,11 +429,11 @@ fn run_fixed<Q: Fixed + Signal, const N: usize, const M: usize, const P: usize>(
     format: Format,
     traj: &Trajectory,
     x0: &[f64],
-) -> Result<FormatRun, CliError> {
+) -> Result<FormatRun, SimError> {
     let fixed = design
         .fixed_point
         .as_ref()
-        .ok_or_else(|| CliError::Failure(format!("{}: no [fixed_point] section", format.name())))?;
+        .ok_or_else(|| SimError::Failure(format!("{}: no [fixed_point] section", format.name())))?;
     let scales = Scales::<N, M, P> {
         state: pad_exponents(&fixed.state_exponents),
         input: pad_exponents(&fixed.input_exponents),
@@ -444,7 +444,7 @@ fn run_fixed<Q: Fixed + Signal, const N: usize, const M: usize, const P: usize>(
         FixedFormat::Q15 => format == Format::Q15,
     };
     let convert = |e: lookout::ConvertError| {
-        CliError::BadInput(format!(
+        SimError::BadInput(format!(
             "{}: {} tables cannot be built with the design's scales: {e:?}",
             design.origin,
             format.name()
@@ -525,10 +525,10 @@ fn check_tables(
     designed: &[QuantisedTable],
     state_rows: &[(&Vec<Vec<i64>>, &[i8])],
     output_rows: &[(&Vec<Vec<i64>>, &[i8])],
-) -> Result<(), CliError> {
+) -> Result<(), SimError> {
     let ours = state_rows.iter().chain(output_rows);
     if designed.len() != state_rows.len() + output_rows.len() {
-        return Err(CliError::Failure(format!(
+        return Err(SimError::Failure(format!(
             "the design lists {} Q tables, the runtime builds {}",
             designed.len(),
             state_rows.len() + output_rows.len()
@@ -538,7 +538,7 @@ fn check_tables(
         for i in 0..table.q.nrows() {
             let exp = exps.get(i).copied();
             if exp != table.exponents.get(i).copied() {
-                return Err(CliError::Failure(format!(
+                return Err(SimError::Failure(format!(
                     "Q table {}: row {i} exponent {:?} from the runtime, {:?} from the design",
                     table.name,
                     exp,
@@ -549,7 +549,7 @@ fn check_tables(
                 let ours = ints.get(i).and_then(|r| r.get(j)).copied();
                 let theirs = table.q.get((i, j)).copied();
                 if ours != theirs {
-                    return Err(CliError::Failure(format!(
+                    return Err(SimError::Failure(format!(
                         "Q table {}: entry ({i}, {j}) is {ours:?} from the runtime's from_float, {theirs:?} in the design",
                         table.name
                     )));
@@ -563,31 +563,33 @@ fn check_tables(
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::cli::SimArgs;
-    use crate::sim::options::SimOptions;
-    use crate::sim::plant::{TruePlant, record};
+    use crate::config::{InputDisturbance, RunConfig};
+    use crate::plant::{TruePlant, record};
+    use crate::signal::InputSignal;
 
-    fn args(model: &str) -> SimArgs {
-        SimArgs {
-            model: model.into(),
-            steps: Some(400),
-            seed: 11,
-            initial_error: Some("0.05,2".into()),
-            input: "prbs:1:7".into(),
+    const SEED: u64 = 11;
+
+    fn config() -> RunConfig {
+        RunConfig {
+            steps: 400,
+            seed: SEED,
+            initial_error: vec![0.05, 2.0],
+            input: InputSignal::Prbs {
+                amplitude: 1.0,
+                hold: 7,
+            },
             process_noise: None,
             measurement_noise: Some(1e-3),
-            mismatch: Some(0.05),
-            disturbance: Some("0:0.2@100".into()),
+            mismatch: 0.05,
+            disturbance: Some(InputDisturbance {
+                input: 0,
+                size: 0.2,
+                start: 100,
+            }),
             dropout_rate: 0.2,
             outlier_rate: 0.05,
             outlier_size: 0.5,
             tolerance: None,
-            json: false,
-            plot: None,
-            font: None,
-            csv: None,
-            sweep: None,
-            formats: None,
         }
     }
 
@@ -605,14 +607,13 @@ mod tests {
         ] {
             let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join(model);
             let design = lookout_design::design_file(&path).unwrap();
-            let a = args(model);
-            let opts = SimOptions::from_args(&a, design.n(), design.m()).unwrap();
-            let plant = TruePlant::of(&design, opts.mismatch, a.seed).unwrap();
-            let (traj, _) = record(&design, &plant, &opts, a.seed).unwrap();
+            let opts = config();
+            let plant = TruePlant::of(&design, opts.mismatch, SEED).unwrap();
+            let (traj, _) = record(&design, &plant, &opts, SEED).unwrap();
             assert!(traj.dropped > 0 && traj.outliers > 0);
             let x0 = [0.05, -2.0];
             let mut gated = 0;
-            for format in crate::sim::formats(&design) {
+            for format in crate::formats(&design) {
                 let padded = run(&design, format, &traj, &x0).unwrap();
                 let exact = run_sized::<2, 1, 1>(&design, format, &traj, &x0).unwrap();
                 assert_eq!(padded.estimate.len(), exact.estimate.len());

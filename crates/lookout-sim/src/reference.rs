@@ -3,9 +3,9 @@
 //! the innovation covariance and the sample spacing that makes errors nearly
 //! independent.
 
-use super::options::SimOptions;
+use super::config::RunConfig;
 use super::plant;
-use crate::error::CliError;
+use crate::SimError;
 use lookout_design::Design;
 use nalgebra::DMatrix;
 
@@ -60,7 +60,7 @@ pub fn band_multiple(n: usize, steps: usize) -> f64 {
 
 impl Reference {
     /// The statistics of `design` under the noise `opts` simulates.
-    pub fn of(design: &Design, opts: &SimOptions) -> Result<Self, CliError> {
+    pub fn of(design: &Design, opts: &RunConfig) -> Result<Self, SimError> {
         let n = design.n();
         let n_plant = design.model.plant.n();
         let (process, measurement) = plant::noise_factors(design, opts, n_plant)?;
@@ -87,7 +87,7 @@ impl Reference {
                     .map_err(|_| {
                         // F is stable (the design checked its spectral
                         // radius), so only the noise can overflow the sum.
-                        CliError::BadInput(
+                        SimError::BadInput(
                             "--process-noise / --measurement-noise: the steady error covariance under this noise is not finite in f64; reduce the noise".into(),
                         )
                     })?;

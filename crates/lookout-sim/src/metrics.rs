@@ -1,7 +1,7 @@
 //! Figures of merit of one format's run against the truth, the f64 observer
 //! and the design's statistics ([`Reference`]), and its [`Verdict`].
 
-use super::options::SimOptions;
+use super::config::RunConfig;
 use super::plant::Trajectory;
 use super::predicted;
 use super::reference::{Reference, test_confidence};
@@ -145,7 +145,7 @@ pub fn deviation_source(design: &Design) -> String {
 }
 
 /// Where the bands of a run come from, for the report.
-pub fn tolerance_source(design: &Design, opts: &SimOptions, reference: &Reference) -> String {
+pub fn tolerance_source(design: &Design, opts: &RunConfig, reference: &Reference) -> String {
     if opts.tolerance.is_some() {
         "--tolerance".to_string()
     } else if reference.noisy {

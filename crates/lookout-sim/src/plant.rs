@@ -6,9 +6,9 @@
 //! nothing of the observer's tables is reused. It is simulated once per run
 //! and the measurements recorded, so every number format sees the same data.
 
-use super::options::SimOptions;
+use super::config::RunConfig;
 use super::rng::Rng;
-use crate::error::CliError;
+use crate::SimError;
 use lookout_design::Design;
 use lookout_design::model::{Domain, Entry, GainSource, Shape};
 use nalgebra::{DMatrix, DVector};
@@ -37,7 +37,7 @@ impl TruePlant {
     /// The model's plant with A and B perturbed entry by entry by
     /// 1 + mismatch·ξ, ξ uniform in [−1, 1] (zero entries stay zero, so the
     /// structure of the model is kept), drawn from `seed`.
-    pub fn of(design: &Design, mismatch: f64, seed: u64) -> Result<Self, CliError> {
+    pub fn of(design: &Design, mismatch: f64, seed: u64) -> Result<Self, SimError> {
         let plant = &design.model.plant;
         let mut rng = Rng::new(seed, STREAM_PLANT);
         let mut largest: f64 = 0.0;
@@ -56,7 +56,7 @@ impl TruePlant {
         let (ad, bd) = match plant.domain {
             Domain::Continuous => lookout_design::numerics::zoh(&a, &b, design.model.sample_period)
                 .map_err(|e| {
-                    CliError::BadInput(format!(
+                    SimError::BadInput(format!(
                         "--mismatch {mismatch}: the perturbed true plant cannot be sampled: {e}"
                     ))
                 })?,
@@ -103,13 +103,13 @@ pub struct Trajectory {
 /// Square root factor S (S Sᵀ = cov) of a covariance, through its
 /// symmetric eigen-decomposition (negative rounding eigenvalues clipped to
 /// zero); the eigen solver's iteration cap makes failure an error.
-fn covariance_factor(name: &str, cov: &DMatrix<f64>) -> Result<DMatrix<f64>, CliError> {
+fn covariance_factor(name: &str, cov: &DMatrix<f64>) -> Result<DMatrix<f64>, SimError> {
     let n = cov.nrows();
     let sym = (cov + cov.transpose()) * 0.5;
     let eig = sym
         .try_symmetric_eigen(f64::EPSILON, 100 * n.max(1))
         .ok_or_else(|| {
-            CliError::Failure(format!(
+            SimError::Failure(format!(
                 "{name}: symmetric eigenvalues did not converge in {} iterations",
                 100 * n.max(1)
             ))
@@ -125,9 +125,9 @@ pub(crate) type NoiseFactors = (Option<DMatrix<f64>>, Option<DMatrix<f64>>);
 /// Noise factors (process on the plant states, measurement on the outputs).
 pub(crate) fn noise_factors(
     design: &Design,
-    opts: &SimOptions,
+    opts: &RunConfig,
     n_plant: usize,
-) -> Result<NoiseFactors, CliError> {
+) -> Result<NoiseFactors, SimError> {
     let p = design.p();
     let kalman_spec = match &design.model.observer.gain_source {
         GainSource::Kalman(spec) => Some(spec),
@@ -202,9 +202,9 @@ fn disturbance_truth(design: &Design, k: usize, size: f64) -> (Vec<f64>, bool) {
 pub fn record(
     design: &Design,
     plant: &TruePlant,
-    opts: &SimOptions,
+    opts: &RunConfig,
     seed: u64,
-) -> Result<(Trajectory, Vec<String>), CliError> {
+) -> Result<(Trajectory, Vec<String>), SimError> {
     let (n, m, p) = (design.n(), design.m(), design.p());
     let n_plant = design.model.plant.n();
     let steps = opts.steps;

@@ -1,6 +1,6 @@
 //! The input signal the plant and the observers are driven with.
 
-use crate::error::CliError;
+use crate::SimError;
 use std::path::Path;
 
 /// The commanded input, the same shape on every input channel.
@@ -35,21 +35,21 @@ pub enum InputSignal {
 impl InputSignal {
     /// Parses `step:A[@K]`, `sine:A:HZ`, `prbs:A[:HOLD]` or `csv:FILE`
     /// (`m` columns expected in the file).
-    pub fn parse(text: &str, m: usize) -> Result<Self, CliError> {
+    pub fn parse(text: &str, m: usize) -> Result<Self, SimError> {
         let bad = |why: &str| {
-            CliError::BadInput(format!(
+            SimError::BadInput(format!(
                 "--input {text}: {why} (expected step:A[@K], sine:A:HZ, prbs:A[:HOLD] or csv:FILE)"
             ))
         };
         let (kind, rest) = text.split_once(':').ok_or_else(|| bad("no signal kind"))?;
-        let number = |s: &str, what: &str| -> Result<f64, CliError> {
+        let number = |s: &str, what: &str| -> Result<f64, SimError> {
             s.trim()
                 .parse::<f64>()
                 .ok()
                 .filter(|v| v.is_finite())
                 .ok_or_else(|| bad(&format!("{what} `{s}` is not a finite number")))
         };
-        let count = |s: &str, what: &str| -> Result<usize, CliError> {
+        let count = |s: &str, what: &str| -> Result<usize, SimError> {
             s.trim()
                 .parse::<usize>()
                 .map_err(|_| bad(&format!("{what} `{s}` is not a whole number ≥ 0")))
@@ -164,10 +164,10 @@ pub const MAX_CSV_BYTES: u64 = 64 << 20;
 
 /// Reads one row of `m` numbers per line; blank lines and lines starting
 /// with `#` are skipped, commas separate the columns.
-fn read_csv(path: &Path, m: usize) -> Result<Vec<Vec<f64>>, CliError> {
+fn read_csv(path: &Path, m: usize) -> Result<Vec<Vec<f64>>, SimError> {
     let name = path.display();
     let text = lookout_design::emit::read_text_limited(path, MAX_CSV_BYTES)
-        .map_err(|e| CliError::BadInput(format!("--input csv:{name}: cannot read it: {e}")))?;
+        .map_err(|e| SimError::BadInput(format!("--input csv:{name}: cannot read it: {e}")))?;
     let mut rows = Vec::new();
     for (index, line) in text.lines().enumerate() {
         let line = line.trim();
@@ -176,7 +176,7 @@ fn read_csv(path: &Path, m: usize) -> Result<Vec<Vec<f64>>, CliError> {
         }
         let cells: Vec<&str> = line.split(',').map(str::trim).collect();
         if cells.len() != m {
-            return Err(CliError::BadInput(format!(
+            return Err(SimError::BadInput(format!(
                 "{name}: line {}: expected {m} column{} (one per input), found {}",
                 index + 1,
                 if m == 1 { "" } else { "s" },
@@ -191,18 +191,18 @@ fn read_csv(path: &Path, m: usize) -> Result<Vec<Vec<f64>>, CliError> {
                     .ok()
                     .filter(|v| v.is_finite())
                     .ok_or_else(|| {
-                        CliError::BadInput(format!(
+                        SimError::BadInput(format!(
                             "{name}: line {}, column {}: `{cell}` is not a finite number",
                             index + 1,
                             c + 1
                         ))
                     })
             })
-            .collect::<Result<Vec<f64>, CliError>>()?;
+            .collect::<Result<Vec<f64>, SimError>>()?;
         rows.push(row);
     }
     if rows.is_empty() {
-        return Err(CliError::BadInput(format!("{name}: no rows of inputs")));
+        return Err(SimError::BadInput(format!("{name}: no rows of inputs")));
     }
     Ok(rows)
 }
