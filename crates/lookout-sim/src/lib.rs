@@ -9,12 +9,16 @@
 //! sweeps.
 //!
 //! One run: the true plant (the model's plant, perturbed and sampled on its
-//! own, see [`plant`]) is simulated once and its readings recorded; each
-//! format's observer ([`runtime`]) is driven over the same record; the
-//! errors are measured against the truth and the f64 observer
-//! ([`metrics`]).
+//! own, see [`plant`]) and every format's observer ([`runtime`], at a size
+//! class of [`sizes`]) step in lockstep, and the errors are measured against
+//! the truth and the f64 observer as they are produced ([`metrics`]): twice,
+//! the plant regenerated from its seed for the second pass, so a run without
+//! kept series needs memory that does not grow with its steps. The series
+//! are kept only when asked for (the plot); rows go to a [`Sink`] (the CSV)
+//! as they are produced.
 
 pub mod config;
+mod engine;
 mod error;
 pub mod metrics;
 pub mod plant;
@@ -23,21 +27,27 @@ pub mod reference;
 pub mod rng;
 pub mod runtime;
 pub mod signal;
+pub mod sizes;
+pub mod tables;
 pub mod verdict;
 
 pub use config::{InputDisturbance, RunConfig};
+pub use engine::Skipped;
+use engine::{Built, Lockstep, build_formats};
 pub use error::SimError;
 use lookout_design::Design;
-use metrics::Metrics;
-use plant::{Trajectory, TruePlant};
+use metrics::{Judged, Metrics, Peaks, Running, Settling, Tests, raise};
+use plant::{PlantStream, Row, Trajectory, TruePlant};
 use reference::Reference;
 use runtime::{Format, FormatRun};
 
 /// Everything one run produced.
 #[derive(Debug, Clone)]
 pub struct RunResult {
-    /// The recorded plant run.
+    /// The plant run: its sizes and counts, and its series when kept.
     pub traj: Trajectory,
+    /// Largest |input| and |reading| per channel.
+    pub peaks: Peaks,
     /// Each format that ran, with its metrics (f64 first).
     pub formats: Vec<(FormatRun, Metrics)>,
     /// Formats that could not be built, with the reason.
@@ -53,9 +63,28 @@ pub struct RunResult {
     pub warnings: Vec<String>,
 }
 
+/// Receives every row of a run as it is produced (first pass only).
+pub trait Sink {
+    /// Before the first row: the formats that run, in the order of the
+    /// estimates given to [`Sink::row`].
+    fn formats(&mut self, formats: &[Format]) -> Result<(), SimError>;
+    /// Row `k` (0..=steps) and every format's estimate x̂[k], n values per
+    /// format.
+    fn row(&mut self, k: usize, row: &Row, estimates: &[f64]) -> Result<(), SimError>;
+}
+
+/// What a run keeps and where its rows go.
+#[derive(Default)]
+pub struct Outputs<'s> {
+    /// Keep the series (truth, inputs, readings, estimates, gated steps) in
+    /// the result: memory grows with the steps.
+    pub series: bool,
+    /// Receives each row.
+    pub rows: Option<&'s mut dyn Sink>,
+}
+
 /// The formats a run uses by default: f64, f32 and the `[fixed_point]`
-/// format the model was designed for (the other Q format only on request,
-/// `--formats`).
+/// format the model was designed for (the other Q format only on request).
 pub fn formats(design: &Design) -> Vec<Format> {
     let mut out = vec![Format::F64, Format::F32];
     if let Some(fx) = &design.fixed_point {
@@ -76,44 +105,187 @@ pub struct Setup {
     pub formats: Vec<Format>,
 }
 
-/// One run with plant seed `seed`, judged against `reference`.
+/// The plant's first row and its stream, and the estimate the observers
+/// start from (the truth minus the initial error).
+fn start<'a>(
+    design: &Design,
+    plant: &'a TruePlant,
+    opts: &'a RunConfig,
+    seed: u64,
+) -> Result<(PlantStream<'a>, Vec<f64>, Vec<String>), SimError> {
+    let (mut stream, warnings) = PlantStream::new(design, plant, opts, seed)?;
+    let x0 = stream
+        .next_row()
+        .map(|row| {
+            row.truth
+                .iter()
+                .zip(&opts.initial_error)
+                .map(|(x, e)| x - e)
+                .collect()
+        })
+        .unwrap_or_default();
+    Ok((PlantStream::new(design, plant, opts, seed)?.0, x0, warnings))
+}
+
+/// The first pass's findings.
+struct FirstPass {
+    traj: Trajectory,
+    peaks: Peaks,
+    runs: Vec<FormatRun>,
+    running: Vec<Running>,
+    warnings: Vec<String>,
+}
+
+/// x − x̂ of row `row` for format `f` into `e`.
+fn errors_into(e: &mut [f64], truth: &[f64], estimate: &[f64]) {
+    for ((o, x), xh) in e.iter_mut().zip(truth).zip(estimate) {
+        *o = x - xh;
+    }
+}
+
+fn first_pass(
+    design: &Design,
+    (plant, opts, seed): (&TruePlant, &RunConfig, u64),
+    built: &Built,
+    out: Outputs,
+) -> Result<FirstPass, SimError> {
+    let (n, steps) = (design.n(), opts.steps);
+    let (mut stream, x0, warnings) = start(design, plant, opts, seed)?;
+    let mut all = Lockstep::new(built, &x0, out.series);
+    let mut traj = Trajectory::empty(design, steps);
+    let mut peaks = Peaks::new(design.m(), design.p());
+    let mut running = vec![Running::new(n, steps); built.len()];
+    let mut sink = out.rows;
+    if let Some(s) = sink.as_deref_mut() {
+        s.formats(&all.runs.iter().map(|r| r.format).collect::<Vec<_>>())?;
+    }
+    let (mut bad_truth, mut bad_reading) = (None, None);
+    let mut e = vec![0.0; n];
+    let mut k = 0;
+    while let Some(row) = stream.next_row() {
+        bad_truth = bad_truth.or(row.truth.iter().copied().find(|v| !v.is_finite()));
+        bad_reading = bad_reading.or(row.y.iter().copied().find(|v| !v.is_finite()));
+        raise(&mut peaks.input, &row.u);
+        raise(&mut peaks.reading, &row.y);
+        all.read();
+        let f64_estimate = all.estimates.get(..n).unwrap_or(&[]);
+        for (r, est) in running.iter_mut().zip(all.estimates.chunks(n.max(1))) {
+            errors_into(&mut e, &row.truth, est);
+            r.add(k, &e, est, f64_estimate);
+        }
+        if let Some(s) = sink.as_deref_mut() {
+            s.row(k, row, &all.estimates)?;
+        }
+        if out.series {
+            traj.push(row);
+        }
+        if k < steps {
+            all.step(k, row);
+        }
+        k += 1;
+    }
+    if let Some(v) = bad_truth.or(bad_reading) {
+        return Err(SimError::BadInput(format!(
+            "the simulated plant reaches {v} (not a finite f64): reduce --input, --process-noise, --measurement-noise, --disturbance or --outlier-size"
+        )));
+    }
+    traj.dropped = stream.dropped;
+    traj.outliers = stream.outliers;
+    Ok(FirstPass {
+        traj,
+        peaks,
+        runs: all.runs,
+        running,
+        warnings,
+    })
+}
+
+/// The second pass: the same run again, each format judged against its
+/// band.
+fn second_pass(
+    design: &Design,
+    (plant, opts, seed): (&TruePlant, &RunConfig, u64),
+    built: &Built,
+    tests: &Tests,
+    mut settling: Vec<Settling>,
+) -> Result<Vec<Settling>, SimError> {
+    let n = design.n();
+    let (mut stream, x0, _) = start(design, plant, opts, seed)?;
+    let mut all = Lockstep::new(built, &x0, false);
+    let mut e = vec![0.0; n];
+    let mut k = 0;
+    while let Some(row) = stream.next_row() {
+        all.read();
+        for (s, est) in settling.iter_mut().zip(all.estimates.chunks(n.max(1))) {
+            errors_into(&mut e, &row.truth, est);
+            let sample = metrics::Sample {
+                k,
+                e: &e,
+                estimate: est,
+                u: &row.u,
+                y: &row.y,
+            };
+            s.add(design, tests, &sample);
+        }
+        if k < opts.steps {
+            all.step(k, row);
+        }
+        k += 1;
+    }
+    Ok(settling)
+}
+
+/// One run with plant seed `seed`, judged against `setup`'s reference;
+/// `out` says what is kept and where rows go.
 pub fn run_once(
     design: &Design,
     opts: &RunConfig,
     setup: &Setup,
     seed: u64,
+    out: Outputs,
 ) -> Result<RunResult, SimError> {
     let reference = &setup.reference;
     let plant = TruePlant::of(design, opts.mismatch, seed)?;
-    let (traj, warnings) = plant::record(design, &plant, opts, seed)?;
-    if let Some(v) = traj.truth.iter().chain(&traj.y).find(|v| !v.is_finite()) {
-        return Err(SimError::BadInput(format!(
-            "the simulated plant reaches {v} (not a finite f64): reduce --input, --process-noise, --measurement-noise, --disturbance or --outlier-size"
-        )));
-    }
-    let x0: Vec<f64> = traj
-        .truth
-        .iter()
-        .zip(&opts.initial_error)
-        .map(|(x, e)| x - e)
-        .collect();
-    let (runs, skipped) = run_formats(design, &setup.formats, &traj, &x0)?;
-    let reference_run = runs
+    let (built, skipped) = build_formats(design, &setup.formats)?;
+    let first = first_pass(design, (&plant, opts, seed), &built, out)?;
+    let reference_run = first
+        .runs
         .first()
-        .cloned()
         .ok_or_else(|| SimError::Failure("the f64 observer did not run".into()))?;
-    let mut formats: Vec<(FormatRun, Metrics)> = runs
+    let f64_dev = metrics::deviation(design, &first.peaks, reference_run, reference_run);
+    let residual = first
+        .running
+        .first()
+        .map(|r| r.residual.clone())
+        .unwrap_or_default();
+    let events = (first.traj.dropped, first.traj.outliers);
+    let tested = reference.noisy && events == (0, 0);
+    let mut judged = Vec::new();
+    let mut settling = Vec::new();
+    for run in &first.runs {
+        let deviation = metrics::deviation(design, &first.peaks, run, reference_run);
+        let band = opts
+            .tolerance
+            .clone()
+            .unwrap_or_else(|| metrics::band(reference, &deviation, &f64_dev, &residual));
+        settling.push(Settling::new(band.clone(), reference, opts.steps, tested));
+        judged.push(Judged {
+            reference,
+            deviation,
+            band,
+            events,
+        });
+    }
+    let tests = Tests::of(reference);
+    let settled = second_pass(design, (&plant, opts, seed), &built, &tests, settling)?;
+    let mut formats: Vec<(FormatRun, Metrics)> = first
+        .runs
         .into_iter()
-        .map(|r| {
-            let m = metrics::measure(
-                design,
-                &traj,
-                &r,
-                &reference_run,
-                reference,
-                opts.tolerance.as_deref(),
-            );
-            (r, m)
+        .zip(judged)
+        .zip(first.running.iter().zip(&settled))
+        .map(|((run, j), (r, s))| {
+            let m = metrics::finish(design, &tests, j, r, s);
+            (run, m)
         })
         .collect();
     metrics::carry_f64_verdict(&mut formats);
@@ -121,48 +293,28 @@ pub fn run_once(
         .first()
         .map(|(_, m)| m.band.clone())
         .unwrap_or_default();
-    let tolerance_source = metrics::tolerance_source(design, opts, reference);
     Ok(RunResult {
-        traj,
+        traj: first.traj,
+        peaks: first.peaks,
         formats,
         skipped,
         tolerance,
-        tolerance_source,
+        tolerance_source: metrics::tolerance_source(design, opts, reference),
         perturbation: plant.perturbation,
-        warnings,
+        warnings: first.warnings,
     })
 }
 
-/// Formats that could not be built, with the reason.
-pub type Skipped = Vec<(Format, String)>;
-
-/// Runs each of `formats` (f64 first) over `traj` from the estimate `x0`.
-/// A Q format the design was not made for is skipped, with the reason, when
-/// its tables cannot be built.
+/// Runs each of `formats` (f64 first) over the stored run `traj` from the
+/// estimate `x0`, keeping every series (for `lookout replay`). A Q format
+/// the design was not made for is skipped, with the reason, when its tables
+/// cannot be built.
 pub fn run_formats(
     design: &Design,
     formats: &[Format],
     traj: &Trajectory,
     x0: &[f64],
 ) -> Result<(Vec<FormatRun>, Skipped), SimError> {
-    let designed_format = design.fixed_point.as_ref().map(|f| match f.format {
-        lookout_design::model::FixedFormat::Q31 => Format::Q31,
-        lookout_design::model::FixedFormat::Q15 => Format::Q15,
-    });
-    let mut runs = Vec::new();
-    let mut skipped = Vec::new();
-    for &format in formats {
-        match runtime::run(design, format, traj, x0) {
-            Ok(r) => runs.push(r),
-            // The other Q format was not designed for: it may not fit.
-            Err(SimError::BadInput(why))
-                if matches!(format, Format::Q31 | Format::Q15)
-                    && Some(format) != designed_format =>
-            {
-                skipped.push((format, why));
-            }
-            Err(e) => return Err(e),
-        }
-    }
-    Ok((runs, skipped))
+    let (built, skipped) = build_formats(design, formats)?;
+    Ok((engine::over(&built, traj, x0), skipped))
 }

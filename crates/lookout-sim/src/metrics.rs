@@ -1,31 +1,29 @@
 //! Figures of merit of one format's run against the truth, the f64 observer
-//! and the design's statistics ([`Reference`]), and its [`Verdict`].
+//! and the design's statistics ([`Reference`]), and its [`Verdict`],
+//! accumulated step by step in memory that does not grow with the run.
+//!
+//! Two passes over the same run (the plant regenerated from its seed, so
+//! nothing is stored). The first ([`Running`]) keeps running sums, peaks
+//! over fixed windows (quarters, eighths, the last quarter) and maxima: the
+//! RMS and final error, stability, the deviation from f64, the signal peaks
+//! the deviation bound needs, and with them the band. The settling step
+//! needs that band and the last step outside it, which only the end of the
+//! run tells; the second pass ([`Settling`]) keeps the last step outside
+//! the band and the settled statistics (mean error, NEES, NIS) summed from
+//! the step after it, restarting them at every step outside, so at the end
+//! they are exactly the sums over the settled samples, in the same order as
+//! over a stored series. With `--tolerance` (a band known before the run)
+//! the second pass is the same code run once more.
 
 use super::config::RunConfig;
-use super::plant::Trajectory;
 use super::predicted;
 use super::reference::{Reference, test_confidence};
 use super::runtime::{Format, FormatRun};
-use super::verdict::{Interval, Verdict, mean_within, normal_quantile};
+use super::verdict::{Interval, Verdict, normal_quantile};
 use lookout_design::Design;
 use lookout_design::fixed_point::accuracy::float_deviation;
 use lookout_design::fixed_point::{Deviation, FloatTables};
-use nalgebra::{DMatrix, DVector};
-
-/// e_i[k] = x_i[k] − x̂_i[k] for k = 0..=steps.
-fn errors<'a>(
-    traj: &'a Trajectory,
-    run: &'a FormatRun,
-    i: usize,
-) -> impl Iterator<Item = f64> + 'a {
-    let n = traj.n;
-    traj.truth
-        .iter()
-        .skip(i)
-        .step_by(n)
-        .zip(run.estimate.iter().skip(i).step_by(n))
-        .map(|(x, xh)| x - xh)
-}
+use nalgebra::{Cholesky, DMatrix, DVector, Dyn};
 
 /// One format's results.
 #[derive(Debug, Clone)]
@@ -65,15 +63,295 @@ pub struct Metrics {
     pub verdict: Verdict,
 }
 
-/// Per state, the largest |value| of an interleaved series `width` wide.
-fn peaks(values: &[f64], width: usize) -> Vec<f64> {
-    let mut out = vec![0.0f64; width];
-    for row in values.chunks(width.max(1)) {
-        for (o, v) in out.iter_mut().zip(row) {
-            *o = o.max(v.abs());
+/// Largest |value| per channel of a run's inputs and readings (the float
+/// deviation bound takes them as the signal scales).
+#[derive(Debug, Clone, Default, PartialEq)]
+pub struct Peaks {
+    /// Per input.
+    pub input: Vec<f64>,
+    /// Per output (every reading, dropped or not).
+    pub reading: Vec<f64>,
+}
+
+/// Raises each `peak` to the |value| beside it (NaN is passed over, as by
+/// `f64::max`).
+pub fn raise(peak: &mut [f64], values: &[f64]) {
+    for (o, v) in peak.iter_mut().zip(values) {
+        *o = o.max(v.abs());
+    }
+}
+
+impl Peaks {
+    /// Zero peaks for m inputs and p outputs.
+    pub fn new(m: usize, p: usize) -> Self {
+        Self {
+            input: vec![0.0; m],
+            reading: vec![0.0; p],
         }
     }
-    out
+
+    /// The peaks of a stored run.
+    pub fn of(traj: &super::plant::Trajectory) -> Self {
+        let mut out = Self::new(traj.m, traj.p);
+        for row in traj.u.chunks(traj.m.max(1)) {
+            raise(&mut out.input, row);
+        }
+        for row in traj.y.chunks(traj.p.max(1)) {
+            raise(&mut out.reading, row);
+        }
+        out
+    }
+}
+
+/// The positions of a run of `len` = steps + 1 samples that the statistics
+/// look at.
+#[derive(Debug, Clone, Copy)]
+struct Windows {
+    len: usize,
+    /// Length of the eighths compared by the noise-free bias test.
+    eighth: usize,
+}
+
+impl Windows {
+    fn new(len: usize) -> Self {
+        Self {
+            len,
+            eighth: (len / 8).max(1),
+        }
+    }
+    fn quarter(self, q: usize, k: usize) -> bool {
+        (q * self.len / 4..(q + 1) * self.len / 4).contains(&k)
+    }
+    fn last_quarter(self, k: usize) -> bool {
+        k >= self.len - self.len / 4
+    }
+    fn eighth_before_last(self, k: usize) -> bool {
+        let from = self.len.saturating_sub(2 * self.eighth);
+        (from..(from + self.eighth).min(self.len)).contains(&k)
+    }
+    fn last_eighth(self, k: usize) -> bool {
+        k >= self.len - self.eighth
+    }
+}
+
+/// The first pass over one format's run.
+#[derive(Debug, Clone)]
+pub struct Running {
+    at: Windows,
+    sum_sq: Vec<f64>,
+    final_error: Vec<f64>,
+    third_quarter: Vec<f64>,
+    fourth_quarter: Vec<f64>,
+    finite: bool,
+    before: Vec<f64>,
+    after: Vec<f64>,
+    /// Largest |error| per state over the last quarter (the f64 run's is
+    /// the noise-free band's residual).
+    pub residual: Vec<f64>,
+    max_deviation_from_f64: Vec<f64>,
+}
+
+fn raise_if(on: bool, peak: &mut [f64], e: &[f64]) {
+    if on {
+        raise(peak, e);
+    }
+}
+
+impl Running {
+    /// Nothing seen yet, for `n` states and `steps` steps.
+    pub fn new(n: usize, steps: usize) -> Self {
+        let zeros = vec![0.0; n];
+        Self {
+            at: Windows::new(steps + 1),
+            // The neutral element of f64's `Sum`, so the sums equal those
+            // of a stored series bit for bit.
+            sum_sq: vec![-0.0; n],
+            final_error: vec![f64::NAN; n],
+            third_quarter: zeros.clone(),
+            fourth_quarter: zeros.clone(),
+            finite: true,
+            before: zeros.clone(),
+            after: zeros.clone(),
+            residual: zeros.clone(),
+            max_deviation_from_f64: zeros,
+        }
+    }
+
+    /// Sample `k`: the error `e` = x − x̂ and the estimate beside the f64
+    /// run's.
+    pub fn add(&mut self, k: usize, e: &[f64], estimate: &[f64], f64_estimate: &[f64]) {
+        let at = self.at;
+        for (s, v) in self.sum_sq.iter_mut().zip(e) {
+            *s += v * v;
+        }
+        self.final_error.copy_from_slice(e);
+        raise_if(at.quarter(2, k), &mut self.third_quarter, e);
+        raise_if(at.quarter(3, k), &mut self.fourth_quarter, e);
+        raise_if(at.eighth_before_last(k), &mut self.before, e);
+        raise_if(at.last_eighth(k), &mut self.after, e);
+        raise_if(at.last_quarter(k), &mut self.residual, e);
+        self.finite &= e.iter().all(|v| v.is_finite());
+        for ((m, a), b) in self
+            .max_deviation_from_f64
+            .iter_mut()
+            .zip(estimate)
+            .zip(f64_estimate)
+        {
+            let d = (a - b).abs();
+            *m = if d.is_nan() { f64::INFINITY } else { m.max(d) };
+        }
+    }
+}
+
+/// Running sums over settled samples from `start` on.
+#[derive(Debug, Clone)]
+struct Sums {
+    start: usize,
+    error: Vec<f64>,
+    samples: usize,
+    nees: f64,
+    nis: f64,
+    nis_samples: usize,
+}
+
+impl Sums {
+    fn from(start: usize, n: usize) -> Self {
+        Self {
+            start,
+            error: vec![-0.0; n],
+            samples: 0,
+            nees: -0.0,
+            nis: -0.0,
+            nis_samples: 0,
+        }
+    }
+    /// Whether `k` is a sample `spacing` apart from the start.
+    fn takes(&self, k: usize, spacing: usize) -> bool {
+        k >= self.start && (k - self.start).is_multiple_of(spacing.max(1))
+    }
+}
+
+/// The consistency tests' factors: Σ's and S's Cholesky factors (`None`
+/// where not positive definite), when the run is tested at all.
+pub struct Tests {
+    nees: Option<Cholesky<f64, Dyn>>,
+    nis: Option<Cholesky<f64, Dyn>>,
+}
+
+impl Tests {
+    /// The factors for `reference`.
+    pub fn of(reference: &Reference) -> Self {
+        Self {
+            nees: reference.cov.clone().cholesky(),
+            nis: reference.innovation_cov.clone().cholesky(),
+        }
+    }
+}
+
+/// One step of a run as the second pass sees it.
+pub struct Sample<'a> {
+    /// Step index.
+    pub k: usize,
+    /// Error x − x̂ per state.
+    pub e: &'a [f64],
+    /// The estimate.
+    pub estimate: &'a [f64],
+    /// Inputs (empty at the last row).
+    pub u: &'a [f64],
+    /// Readings (empty at the last row).
+    pub y: &'a [f64],
+}
+
+/// The second pass over one format's run.
+#[derive(Debug, Clone)]
+pub struct Settling {
+    band: Vec<f64>,
+    at: Windows,
+    steps: usize,
+    spacing: usize,
+    nis_spacing: usize,
+    /// Whether NEES and NIS are summed (noise, no dropouts or outliers).
+    tested: bool,
+    last_outside: Option<usize>,
+    settled: Sums,
+    /// From the last quarter's start: the bias test of a run that does not
+    /// settle.
+    tail: Sums,
+}
+
+impl Settling {
+    /// Nothing seen yet, with the format's `band`.
+    pub fn new(band: Vec<f64>, reference: &Reference, steps: usize, tested: bool) -> Self {
+        let n = band.len();
+        let at = Windows::new(steps + 1);
+        Self {
+            band,
+            at,
+            steps,
+            spacing: reference.spacing,
+            nis_spacing: if reference.white_innovation {
+                1
+            } else {
+                reference.spacing
+            },
+            tested,
+            last_outside: None,
+            settled: Sums::from(0, n),
+            tail: Sums::from(at.len - at.len / 4, n),
+        }
+    }
+
+    /// Adds sample `s`.
+    pub fn add(&mut self, design: &Design, tests: &Tests, s: &Sample) {
+        // A band that is not finite (the f64 reference's error overflowed)
+        // cannot be settled in: every step is outside it.
+        let outside =
+            s.e.iter()
+                .zip(&self.band)
+                .any(|(v, &tol)| !tol.is_finite() || v.is_nan() || v.abs() > tol);
+        if outside {
+            self.last_outside = Some(s.k);
+            self.settled = Sums::from(s.k + 1, s.e.len());
+        }
+        for sums in [&mut self.settled, &mut self.tail] {
+            if sums.takes(s.k, self.spacing) {
+                for (a, v) in sums.error.iter_mut().zip(s.e) {
+                    *a += v;
+                }
+                sums.samples += 1;
+            }
+        }
+        if !self.tested {
+            return;
+        }
+        let sums = &mut self.settled;
+        if sums.takes(s.k, self.spacing)
+            && let Some(chol) = &tests.nees
+        {
+            let e = DVector::from_column_slice(s.e);
+            sums.nees += e.dot(&chol.solve(&e));
+        }
+        if s.k < self.steps
+            && sums.takes(s.k, self.nis_spacing)
+            && let Some(chol) = &tests.nis
+        {
+            let x = DVector::from_column_slice(s.estimate);
+            let u = DVector::from_column_slice(s.u);
+            let y = DVector::from_column_slice(s.y);
+            let r = y - &design.cd * x - &design.dd * u;
+            sums.nis += r.dot(&chol.solve(&r));
+            sums.nis_samples += 1;
+        }
+    }
+
+    /// First step from which every state's error stays within its band.
+    fn settling_step(&self) -> Option<usize> {
+        match self.last_outside {
+            None => Some(0),
+            Some(k) if k + 1 < self.at.len => Some(k + 1),
+            Some(_) => None,
+        }
+    }
 }
 
 /// Without `[fixed_point]` (float formats only): the design's float
@@ -83,23 +361,23 @@ fn peaks(values: &[f64], width: usize) -> Vec<f64> {
 /// differs from the f64 one by f64 rounding only), the inputs and readings.
 fn run_peak_deviation(
     design: &Design,
-    traj: &Trajectory,
+    signals: &Peaks,
     run: &FormatRun,
     reference_run: &FormatRun,
 ) -> Option<Deviation> {
     let names = design.state_names();
     let tables = FloatTables::of(design, &names);
-    let x: Vec<f64> = peaks(&run.estimate, traj.n)
+    let x: Vec<f64> = run
+        .estimate_peak
         .iter()
-        .zip(peaks(&reference_run.estimate, traj.n))
-        .map(|(a, b)| a.max(b))
+        .zip(&reference_run.estimate_peak)
+        .map(|(a, b)| a.max(*b))
         .collect();
-    let (u, y) = (peaks(&traj.u, traj.m), peaks(&traj.y, traj.p));
     float_deviation(
         &tables,
         predicted::simulated_form(design),
         predicted::kind(run.format),
-        (&x, &u, &y),
+        (&x, &signals.input, &signals.reading),
     )
 }
 
@@ -111,7 +389,7 @@ fn run_peak_deviation(
 /// error dynamics do not decay or its tables do not fit).
 pub fn deviation(
     design: &Design,
-    traj: &Trajectory,
+    signals: &Peaks,
     run: &FormatRun,
     reference_run: &FormatRun,
 ) -> Vec<f64> {
@@ -120,12 +398,12 @@ pub fn deviation(
     // full scales (which would hide a real bias in the band); a Q step is
     // bounded at its scales, which it cannot leave without saturating.
     let found = match run.format {
-        Format::F64 | Format::F32 => run_peak_deviation(design, traj, run, reference_run),
+        Format::F64 | Format::F32 => run_peak_deviation(design, signals, run, reference_run),
         _ => predicted::design_deviation(design, run.format).cloned(),
     };
     match found {
         Some(d) if d.refused.is_none() => d.total,
-        _ => vec![f64::INFINITY; traj.n],
+        _ => vec![f64::INFINITY; design.n()],
     }
 }
 
@@ -185,123 +463,6 @@ pub fn band(reference: &Reference, dev: &[f64], f64_dev: &[f64], residual: &[f64
         .collect()
 }
 
-/// The f64 run's largest |error| per state over the last quarter.
-pub fn residual(traj: &Trajectory, reference_run: &FormatRun) -> Vec<f64> {
-    let len = traj.steps + 1;
-    (0..traj.n)
-        .map(|i| {
-            errors(traj, reference_run, i)
-                .skip(len - len / 4)
-                .fold(0.0, |m: f64, v| m.max(v.abs()))
-        })
-        .collect()
-}
-
-/// Averages eᵀ M⁻¹ e over the sample indices `at` (`None` if M is not
-/// positive definite or there are no samples).
-fn normalised(m: &DMatrix<f64>, samples: &[DVector<f64>], confidence: f64) -> Option<Interval> {
-    let chol = m.clone().cholesky()?;
-    let total: f64 = samples.iter().map(|e| e.dot(&chol.solve(e))).sum();
-    Interval::chi_square(
-        total / samples.len() as f64,
-        samples.len(),
-        m.nrows(),
-        confidence,
-    )
-}
-
-/// The settled samples used by the statistics: every `spacing`-th step
-/// from `start` on.
-fn settled(start: usize, len: usize, spacing: usize) -> Vec<usize> {
-    (start..len).step_by(spacing.max(1)).collect()
-}
-
-/// The NEES and NIS averages of a settled run (see [`super::verdict`]).
-fn consistency(
-    design: &Design,
-    traj: &Trajectory,
-    run: &FormatRun,
-    reference: &Reference,
-    start: usize,
-) -> (Option<Interval>, Option<Interval>, Option<String>) {
-    if !reference.noisy {
-        return (None, None, Some("no simulated noise".into()));
-    }
-    if traj.dropped > 0 || traj.outliers > 0 {
-        return (
-            None,
-            None,
-            Some("dropouts and outliers change the error covariance the tests assume".into()),
-        );
-    }
-    let (n, m, p) = (traj.n, traj.m, traj.p);
-    let err = |k: usize| {
-        DVector::from_iterator(
-            n,
-            (0..n).map(|i| traj.truth[k * n + i] - run.estimate[k * n + i]),
-        )
-    };
-    let len = traj.steps + 1;
-    let e: Vec<DVector<f64>> = settled(start, len, reference.spacing)
-        .into_iter()
-        .map(err)
-        .collect();
-    let confidence = test_confidence(n);
-    let nees = normalised(&reference.cov, &e, confidence);
-    let nis_spacing = if reference.white_innovation {
-        1
-    } else {
-        reference.spacing
-    };
-    let r: Vec<DVector<f64>> = settled(start, traj.steps, nis_spacing)
-        .into_iter()
-        .map(|k| {
-            let x = DVector::from_iterator(n, run.estimate[k * n..(k + 1) * n].iter().copied());
-            let u = DVector::from_iterator(m, traj.u[k * m..(k + 1) * m].iter().copied());
-            let y = DVector::from_iterator(p, traj.y[k * p..(k + 1) * p].iter().copied());
-            y - &design.cd * x - &design.dd * u
-        })
-        .collect();
-    let nis = normalised(&reference.innovation_cov, &r, confidence);
-    let note = nees
-        .is_none()
-        .then(|| "the design's error covariance is singular: no NEES".to_string());
-    (nees, nis, note)
-}
-
-/// Per state: the mean error over the settled, nearly independent
-/// samples, its limit z·σ/√K + the deviation bound (z the two-sided normal
-/// quantile at [`test_confidence`]), and the first
-/// state beyond it.
-fn bias_with_noise(
-    traj: &Trajectory,
-    run: &FormatRun,
-    reference: &Reference,
-    dev: &[f64],
-    start: usize,
-) -> (Vec<f64>, Vec<f64>, Option<usize>) {
-    let n = traj.n;
-    let z = normal_quantile(test_confidence(n));
-    let samples = settled(start, traj.steps + 1, reference.spacing);
-    let mut out = (Vec::with_capacity(n), Vec::with_capacity(n), None);
-    for i in 0..n {
-        let e: Vec<f64> = samples
-            .iter()
-            .map(|&k| traj.truth[k * n + i] - run.estimate[k * n + i])
-            .collect();
-        let sigma = reference.sigma.get(i).copied().unwrap_or(0.0);
-        let spread = z * sigma / (e.len().max(1) as f64).sqrt();
-        let limit = spread + dev.get(i).copied().unwrap_or(0.0);
-        let (mean, ok) = mean_within(&e, limit.max(f64::MIN_POSITIVE));
-        if !ok && out.2.is_none() {
-            out.2 = Some(i);
-        }
-        out.0.push(mean);
-        out.1.push(limit);
-    }
-    out
-}
-
 /// Without noise the error of an exact model obeys e[k + L] = Fᴸ e[k] up
 /// to rounding, so with D = diag(d) any positive scaling,
 /// max over the last eighth of |e_i| / d_i ≤ ‖D⁻¹ Fᴸ D‖∞ · max over the
@@ -311,26 +472,12 @@ fn bias_with_noise(
 /// error beyond it does not decay as the design says: a model mismatch or
 /// an unmodelled input. Returns per state the later peak and its limit.
 fn bias_without_noise(
-    traj: &Trajectory,
-    run: &FormatRun,
+    r: &Running,
     reference: &Reference,
     dev: &[f64],
 ) -> (Vec<f64>, Vec<f64>, Option<usize>) {
-    let n = traj.n;
-    let len = traj.steps + 1;
-    let window = (len / 8).max(1);
-    let peak = |e: &[f64], from: usize| {
-        e.get(from..(from + window).min(len))
-            .unwrap_or(&[])
-            .iter()
-            .fold(0.0, |m: f64, v| m.max(v.abs()))
-    };
-    let (mut before, mut after) = (Vec::with_capacity(n), Vec::with_capacity(n));
-    for i in 0..n {
-        let e: Vec<f64> = errors(traj, run, i).collect();
-        before.push(peak(&e, len.saturating_sub(2 * window)));
-        after.push(peak(&e, len - window));
-    }
+    let (before, after, window) = (&r.before, r.after.clone(), r.at.eighth);
+    let n = before.len();
     let round = |i: usize| dev.get(i).copied().unwrap_or(0.0);
     let d: Vec<f64> = (0..n)
         .map(|i| before[i].max(round(i)).max(f64::MIN_POSITIVE))
@@ -355,75 +502,113 @@ fn bias_without_noise(
     (after, limits, biased)
 }
 
-/// Computes the metrics and the verdict of `run`. `tolerance` overrides
-/// the band when given (`--tolerance`).
-pub fn measure(
-    design: &Design,
-    traj: &Trajectory,
-    run: &FormatRun,
-    reference_run: &FormatRun,
+/// Per state: the mean error over the settled, nearly independent
+/// samples, its limit z·σ/√K + the deviation bound (z the two-sided normal
+/// quantile at [`test_confidence`]), and the first state beyond it.
+fn bias_with_noise(
+    sums: &Sums,
     reference: &Reference,
-    tolerance: Option<&[f64]>,
-) -> Metrics {
-    let n = traj.n;
-    let len = traj.steps + 1;
-    let dev = deviation(design, traj, run, reference_run);
-    let f64_dev = deviation(design, traj, reference_run, reference_run);
-    let residual = residual(traj, reference_run);
-    let band = tolerance.map_or_else(
-        || band(reference, &dev, &f64_dev, &residual),
-        <[f64]>::to_vec,
-    );
-    let mut rms_error = Vec::with_capacity(n);
-    let mut final_error = Vec::with_capacity(n);
-    let mut stable = true;
-    let mut finite = true;
-    let mut last_outside: Option<usize> = None;
-    for (i, &tol) in band.iter().enumerate().take(n) {
-        let e: Vec<f64> = errors(traj, run, i).collect();
-        let sum_sq: f64 = e.iter().map(|v| v * v).sum();
-        rms_error.push((sum_sq / len as f64).sqrt());
-        final_error.push(e.last().copied().unwrap_or(f64::NAN));
-        // A band that is not finite (the f64 reference's error overflowed)
-        // cannot be settled in: never within it.
-        let outside = if tol.is_finite() {
-            e.iter().rposition(|v| v.is_nan() || v.abs() > tol)
+    dev: &[f64],
+) -> (Vec<f64>, Vec<f64>, Option<usize>) {
+    let n = sums.error.len();
+    let z = normal_quantile(test_confidence(n));
+    let mut out = (Vec::with_capacity(n), Vec::with_capacity(n), None);
+    for (i, &sum) in sums.error.iter().enumerate() {
+        let sigma = reference.sigma.get(i).copied().unwrap_or(0.0);
+        let spread = z * sigma / (sums.samples.max(1) as f64).sqrt();
+        let limit = spread + dev.get(i).copied().unwrap_or(0.0);
+        let mean = if sums.samples == 0 {
+            0.0
         } else {
-            len.checked_sub(1)
+            sum / sums.samples as f64
         };
-        if let Some(k) = outside {
-            last_outside = Some(last_outside.map_or(k, |l| l.max(k)));
+        let within = mean.abs() <= limit.max(f64::MIN_POSITIVE);
+        if !within && out.2.is_none() {
+            out.2 = Some(i);
         }
-        let quarter = |q: usize| {
-            e.get(q * len / 4..(q + 1) * len / 4)
-                .unwrap_or(&[])
-                .iter()
-                .fold(0.0, |m: f64, v| m.max(v.abs()))
-        };
-        finite &= e.iter().all(|v| v.is_finite());
-        if !finite || quarter(3) > quarter(2) + tol {
-            stable = false;
-        }
+        out.0.push(mean);
+        out.1.push(limit);
     }
-    let settling_step = match last_outside {
-        None => Some(0),
-        Some(k) if k + 1 < len => Some(k + 1),
-        Some(_) => None,
+    out
+}
+
+/// The NEES and NIS averages of a settled run (see [`super::verdict`]).
+fn consistency(
+    design: &Design,
+    tests: &Tests,
+    sums: &Sums,
+    reference: &Reference,
+    (dropped, outliers): (usize, usize),
+) -> (Option<Interval>, Option<Interval>, Option<String>) {
+    if !reference.noisy {
+        return (None, None, Some("no simulated noise".into()));
+    }
+    if dropped > 0 || outliers > 0 {
+        return (
+            None,
+            None,
+            Some("dropouts and outliers change the error covariance the tests assume".into()),
+        );
+    }
+    let confidence = test_confidence(design.n());
+    let average = |chol: &Option<Cholesky<f64, Dyn>>, total: f64, count: usize, dim: usize| {
+        chol.as_ref()?;
+        Interval::chi_square(total / count as f64, count, dim, confidence)
     };
+    let nees = average(&tests.nees, sums.nees, sums.samples, design.n());
+    let nis = average(&tests.nis, sums.nis, sums.nis_samples, design.p());
+    let note = nees
+        .is_none()
+        .then(|| "the design's error covariance is singular: no NEES".to_string());
+    (nees, nis, note)
+}
+
+/// What a format's verdict rests on besides its two passes.
+pub struct Judged<'a> {
+    /// The design's statistics.
+    pub reference: &'a Reference,
+    /// The format's deviation bound per state.
+    pub deviation: Vec<f64>,
+    /// The format's band per state.
+    pub band: Vec<f64>,
+    /// Readings dropped and made outliers in the run.
+    pub events: (usize, usize),
+}
+
+/// The metrics and the verdict of a format from its two passes.
+pub fn finish(design: &Design, tests: &Tests, j: Judged, r: &Running, s: &Settling) -> Metrics {
+    let len = r.at.len;
+    let rms_error = r
+        .sum_sq
+        .iter()
+        .map(|&sum_sq| (sum_sq / len as f64).sqrt())
+        .collect();
+    let grew = r
+        .fourth_quarter
+        .iter()
+        .zip(&r.third_quarter)
+        .zip(&j.band)
+        .any(|((q3, q2), tol)| *q3 > q2 + tol);
+    let stable = r.finite && !grew;
+    let settling_step = s.settling_step();
     // Unsettled runs are tested for a bias over their last quarter: an
     // error that stays outside its band by a steady amount is a bias.
-    let start = settling_step.unwrap_or(len - len / 4);
-    let (mean_error, mean_limit, biased) = if reference.noisy {
-        bias_with_noise(traj, run, reference, &dev, start)
+    let sums = if settling_step.is_some() {
+        &s.settled
     } else {
-        bias_without_noise(traj, run, reference, &dev)
+        &s.tail
     };
-    let (nees, nis, untested) = if settling_step.is_some() && finite {
-        consistency(design, traj, run, reference, start)
+    let (mean_error, mean_limit, biased) = if j.reference.noisy {
+        bias_with_noise(sums, j.reference, &j.deviation)
+    } else {
+        bias_without_noise(r, j.reference, &j.deviation)
+    };
+    let (nees, nis, untested) = if settling_step.is_some() && r.finite {
+        consistency(design, tests, sums, j.reference, j.events)
     } else {
         (None, None, None)
     };
-    let verdict = if !finite {
+    let verdict = if !r.finite {
         Verdict::NotFinite
     } else if let Some(state) = biased {
         Verdict::Biased { state }
@@ -436,28 +621,15 @@ pub fn measure(
     } else {
         Verdict::Converged
     };
-    let max_deviation_from_f64 = (0..n)
-        .map(|i| {
-            run.estimate
-                .iter()
-                .skip(i)
-                .step_by(n)
-                .zip(reference_run.estimate.iter().skip(i).step_by(n))
-                .fold(0.0, |m: f64, (a, b)| {
-                    let d = (a - b).abs();
-                    if d.is_nan() { f64::INFINITY } else { m.max(d) }
-                })
-        })
-        .collect();
     Metrics {
         rms_error,
-        final_error,
+        final_error: r.final_error.clone(),
         settling_step,
-        max_deviation_from_f64,
+        max_deviation_from_f64: r.max_deviation_from_f64.clone(),
         stable,
         converged: verdict.converged(),
-        band,
-        deviation: dev,
+        band: j.band,
+        deviation: j.deviation,
         mean_error,
         mean_limit,
         nees,

@@ -8,6 +8,7 @@
 
 use super::config::RunConfig;
 use super::rng::Rng;
+use super::signal::InputStream;
 use crate::SimError;
 use lookout_design::Design;
 use lookout_design::model::{Domain, Entry, GainSource, Shape};
@@ -98,6 +99,53 @@ pub struct Trajectory {
     pub outliers: usize,
     /// Whether each reading is an outlier, p per row.
     pub outlier: Vec<bool>,
+}
+
+impl Trajectory {
+    /// A run of `steps` steps of `design`'s sizes with nothing stored yet.
+    pub fn empty(design: &Design, steps: usize) -> Self {
+        Self {
+            steps,
+            n: design.n(),
+            m: design.m(),
+            p: design.p(),
+            truth: Vec::new(),
+            u: Vec::new(),
+            y: Vec::new(),
+            valid: Vec::new(),
+            dropped: 0,
+            outliers: 0,
+            outlier: Vec::new(),
+        }
+    }
+
+    /// Appends one row.
+    pub fn push(&mut self, row: &Row) {
+        self.truth.extend(&row.truth);
+        self.u.extend(&row.u);
+        self.y.extend(&row.y);
+        self.valid.extend(&row.valid);
+        self.outlier.extend(&row.outlier);
+    }
+
+    /// Row k into `row` (the stored counterpart of [`PlantStream::next_row`]).
+    pub fn row_into(&self, k: usize, row: &mut Row) {
+        let (n, m, p) = (self.n, self.m, self.p);
+        let part = |v: &[f64], w: usize| v.get(k * w..(k + 1) * w).unwrap_or(&[]).to_vec();
+        row.truth = part(&self.truth, n);
+        let last = k >= self.steps;
+        row.u = if last { Vec::new() } else { part(&self.u, m) };
+        row.y = if last { Vec::new() } else { part(&self.y, p) };
+        let flags = |v: &[bool]| {
+            if last {
+                Vec::new()
+            } else {
+                v.get(k * p..(k + 1) * p).unwrap_or(&[]).to_vec()
+            }
+        };
+        row.valid = flags(&self.valid);
+        row.outlier = flags(&self.outlier);
+    }
 }
 
 /// Square root factor S (S Sᵀ = cov) of a covariance, through its
@@ -196,86 +244,162 @@ fn disturbance_truth(design: &Design, k: usize, size: f64) -> (Vec<f64>, bool) {
     (out, exact)
 }
 
-/// Simulates `plant` for `opts` and records the run. The plant starts at
-/// x = 0 (its estimate at −initial error). Also returns a warning when a
-/// disturbance state has no exact truth.
+/// One step of a run: the truth at step k and what the observers are given
+/// for step k (inputs, readings and flags are empty at the last row, the
+/// state after the last step).
+#[derive(Debug, Clone, Default)]
+pub struct Row {
+    /// True value of each estimated state (n; empty in a replayed log).
+    pub truth: Vec<f64>,
+    /// Commanded input (m, without the disturbance).
+    pub u: Vec<f64>,
+    /// Readings (p, noisy, with outliers).
+    pub y: Vec<f64>,
+    /// Whether each reading is offered (false: dropped out).
+    pub valid: Vec<bool>,
+    /// Whether each reading is an outlier.
+    pub outlier: Vec<bool>,
+}
+
+/// The true plant simulated step by step, in constant memory: the same
+/// values, drawn in the same order from the same seeded streams, whether a
+/// run is stored ([`record`]) or not.
+pub struct PlantStream<'a> {
+    plant: &'a TruePlant,
+    opts: &'a RunConfig,
+    input: InputStream<'a>,
+    process: Option<DMatrix<f64>>,
+    measurement: Option<DMatrix<f64>>,
+    noise: Rng,
+    readings: Rng,
+    dist_truth: Vec<f64>,
+    x: DVector<f64>,
+    k: usize,
+    row: Row,
+    /// Readings dropped so far.
+    pub dropped: usize,
+    /// Readings made outliers so far.
+    pub outliers: usize,
+}
+
+impl<'a> PlantStream<'a> {
+    /// The stream of `plant` for `opts`. The plant starts at x = 0 (its
+    /// estimate at −initial error). Also returns a warning when a
+    /// disturbance state has no exact truth.
+    pub fn new(
+        design: &Design,
+        plant: &'a TruePlant,
+        opts: &'a RunConfig,
+        seed: u64,
+    ) -> Result<(Self, Vec<String>), SimError> {
+        let (n, m) = (design.n(), design.m());
+        let n_plant = design.model.plant.n();
+        let (process, measurement) = noise_factors(design, opts, n_plant)?;
+        let mut warnings = Vec::new();
+        let (dist_truth, exact) = match opts.disturbance {
+            Some(d) => disturbance_truth(design, d.input, d.size),
+            None => (vec![0.0; n - n_plant], true),
+        };
+        if !exact {
+            warnings.push(
+                "the simulated input disturbance is not parallel to a modelled disturbance column: the disturbance states' truth is its least-squares equivalent"
+                    .to_string(),
+            );
+        }
+        let stream = Self {
+            plant,
+            opts,
+            input: InputStream::new(&opts.input, m, design.model.sample_period),
+            process,
+            measurement,
+            noise: Rng::new(seed, STREAM_NOISE),
+            readings: Rng::new(seed, STREAM_READINGS),
+            dist_truth,
+            x: DVector::zeros(n_plant),
+            k: 0,
+            row: Row::default(),
+            dropped: 0,
+            outliers: 0,
+        };
+        Ok((stream, warnings))
+    }
+
+    /// Row k (k = 0..=steps, then `None`), advancing the plant by one step.
+    pub fn next_row(&mut self) -> Option<&Row> {
+        let opts = self.opts;
+        let k = self.k;
+        if k > opts.steps {
+            return None;
+        }
+        self.k += 1;
+        let acting = opts.disturbance.filter(|d| k >= d.start);
+        let row = &mut self.row;
+        row.truth.clear();
+        row.truth.extend(self.x.iter());
+        let on = acting.is_some();
+        row.truth
+            .extend(self.dist_truth.iter().map(|&v| if on { v } else { 0.0 }));
+        row.u.clear();
+        row.y.clear();
+        row.valid.clear();
+        row.outlier.clear();
+        if k == opts.steps {
+            return Some(&self.row);
+        }
+        let m = self.plant.bd.ncols();
+        row.u.resize(m, 0.0);
+        self.input.next_row(&mut row.u);
+        let mut u_true = DVector::from_column_slice(&row.u);
+        if let Some(d) = acting
+            && let Some(slot) = u_true.get_mut(d.input)
+        {
+            *slot += d.size;
+        }
+        let (plant, x) = (self.plant, &self.x);
+        let mut y = &plant.c * x + &plant.d * &u_true;
+        if let Some(s) = &self.measurement {
+            let noise = &mut self.noise;
+            y += s * DVector::from_fn(y.len(), |_, _| noise.normal());
+        }
+        for yj in y.iter_mut() {
+            let readings = &mut self.readings;
+            let valid = !readings.chance(opts.dropout_rate);
+            let outlier = readings.chance(opts.outlier_rate);
+            if outlier {
+                let sign = if readings.chance(0.5) { 1.0 } else { -1.0 };
+                *yj += sign * opts.outlier_size;
+                self.outliers += 1;
+            }
+            row.outlier.push(outlier);
+            self.dropped += usize::from(!valid);
+            row.valid.push(valid);
+            row.y.push(*yj);
+        }
+        let mut next = &plant.ad * x + &plant.bd * &u_true;
+        if let Some(s) = &self.process {
+            let noise = &mut self.noise;
+            next += s * DVector::from_fn(next.len(), |_, _| noise.normal());
+        }
+        self.x = next;
+        Some(&self.row)
+    }
+}
+
+/// Simulates `plant` for `opts` and stores the whole run (for the plot and
+/// tests; [`PlantStream`] gives it a step at a time). Also returns a
+/// warning when a disturbance state has no exact truth.
 pub fn record(
     design: &Design,
     plant: &TruePlant,
     opts: &RunConfig,
     seed: u64,
 ) -> Result<(Trajectory, Vec<String>), SimError> {
-    let (n, m, p) = (design.n(), design.m(), design.p());
-    let n_plant = design.model.plant.n();
-    let steps = opts.steps;
-    let t = design.model.sample_period;
-    let u_series = opts.input.series(steps, m, t);
-    let (process, measurement) = noise_factors(design, opts, n_plant)?;
-    let mut noise = Rng::new(seed, STREAM_NOISE);
-    let mut readings = Rng::new(seed, STREAM_READINGS);
-    let mut warnings = Vec::new();
-    let (dist_truth, exact) = match opts.disturbance {
-        Some(d) => disturbance_truth(design, d.input, d.size),
-        None => (vec![0.0; n - n_plant], true),
-    };
-    if !exact {
-        warnings.push(
-            "the simulated input disturbance is not parallel to a modelled disturbance column: the disturbance states' truth is its least-squares equivalent"
-                .to_string(),
-        );
+    let (mut stream, warnings) = PlantStream::new(design, plant, opts, seed)?;
+    let mut tr = Trajectory::empty(design, opts.steps);
+    while let Some(row) = stream.next_row() {
+        tr.push(row);
     }
-
-    let mut x = DVector::<f64>::zeros(n_plant);
-    let mut tr = Trajectory {
-        steps,
-        n,
-        m,
-        p,
-        truth: Vec::with_capacity((steps + 1) * n),
-        u: u_series,
-        y: Vec::with_capacity(steps * p),
-        valid: Vec::with_capacity(steps * p),
-        dropped: 0,
-        outliers: 0,
-        outlier: Vec::with_capacity(steps * p),
-    };
-    let acting = |k: usize| opts.disturbance.filter(|d| k >= d.start);
-    for k in 0..=steps {
-        tr.truth.extend(x.iter());
-        let on = acting(k).is_some();
-        tr.truth
-            .extend(dist_truth.iter().map(|&v| if on { v } else { 0.0 }));
-        if k == steps {
-            break;
-        }
-        let mut u_true = DVector::from_iterator(m, tr.u.iter().skip(k * m).take(m).copied());
-        if let Some(d) = acting(k)
-            && let Some(slot) = u_true.get_mut(d.input)
-        {
-            *slot += d.size;
-        }
-        let mut y = &plant.c * &x + &plant.d * &u_true;
-        if let Some(s) = &measurement {
-            y += s * DVector::from_fn(p, |_, _| noise.normal());
-        }
-        for yj in y.iter_mut() {
-            let valid = !readings.chance(opts.dropout_rate);
-            let outlier = readings.chance(opts.outlier_rate);
-            if outlier {
-                let sign = if readings.chance(0.5) { 1.0 } else { -1.0 };
-                *yj += sign * opts.outlier_size;
-                tr.outliers += 1;
-            }
-            tr.outlier.push(outlier);
-            tr.dropped += usize::from(!valid);
-            tr.valid.push(valid);
-            tr.y.push(*yj);
-        }
-        let mut next = &plant.ad * &x + &plant.bd * &u_true;
-        if let Some(s) = &process {
-            next += s * DVector::from_fn(n_plant, |_, _| noise.normal());
-        }
-        x = next;
-    }
+    tr.dropped = stream.dropped;
+    tr.outliers = stream.outliers;
     Ok((tr, warnings))
 }

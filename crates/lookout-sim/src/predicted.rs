@@ -4,7 +4,7 @@
 
 use super::RunResult;
 use super::metrics::Metrics;
-use super::plant::Trajectory;
+use super::metrics::Peaks;
 use super::runtime::{Format, FormatRun};
 use lookout_design::Design;
 use lookout_design::fixed_point::{Deviation, FormKind, NumberKind, accuracy::model_form_of};
@@ -32,12 +32,12 @@ pub fn kind(format: Format) -> NumberKind {
     }
 }
 
-fn outside(values: &[f64], width: usize, exps: &[i8]) -> bool {
-    values.chunks(width.max(1)).any(|row| {
-        row.iter()
-            .zip(exps)
-            .any(|(v, &e)| v.abs() >= 2f64.powi(i32::from(e)))
-    })
+/// Whether a peak reaches its scale 2^e.
+fn outside(peaks: &[f64], exps: &[i8]) -> bool {
+    peaks
+        .iter()
+        .zip(exps)
+        .any(|(v, &e)| *v >= 2f64.powi(i32::from(e)))
 }
 
 /// The form simulate runs in every format: the model's, fused for a held
@@ -58,7 +58,7 @@ pub fn design_deviation(design: &Design, format: Format) -> Option<&Deviation> {
 pub fn check(design: &Design, r: &RunResult, run: &FormatRun, m: &Metrics) -> Option<Check> {
     let bound = bound(design, run.format)?;
     let f64_run = r.formats.first().map(|(f, _)| f);
-    let not_covered = not_covered(design, &r.traj, run, f64_run);
+    let not_covered = not_covered(design, r.traj.dropped, &r.peaks, run, f64_run);
     let exceeded = not_covered.is_none()
         && m.max_deviation_from_f64
             .iter()
@@ -92,21 +92,23 @@ pub fn bound(design: &Design, format: Format) -> Option<Vec<f64>> {
     )
 }
 
-/// Why the bound does not cover `run` over `traj`, if so.
+/// Why the bound does not cover `run` (of a run with `dropped` readings
+/// and input and reading peaks `signals`), if so.
 pub fn not_covered(
     design: &Design,
-    traj: &Trajectory,
+    dropped: usize,
+    signals: &Peaks,
     run: &FormatRun,
     f64_run: Option<&FormatRun>,
 ) -> Option<String> {
     let fx = design.fixed_point.as_ref()?;
     if run.saturations > 0 {
         Some("the run saturated".to_string())
-    } else if traj.dropped > 0 || run.gated > 0 {
+    } else if dropped > 0 || run.gated > 0 {
         Some("readings were dropped or gated (the estimate then runs open loop)".to_string())
-    } else if outside(&traj.u, traj.m, &fx.input_exponents)
-        || outside(&traj.y, traj.p, &fx.output_exponents)
-        || f64_run.is_some_and(|f| outside(&f.estimate, traj.n, &fx.state_exponents))
+    } else if outside(&signals.input, &fx.input_exponents)
+        || outside(&signals.reading, &fx.output_exponents)
+        || f64_run.is_some_and(|f| outside(&f.estimate_peak, &fx.state_exponents))
     {
         Some("a signal left its scale".to_string())
     } else {

@@ -1,10 +1,21 @@
 //! Stepping the real `lookout` runtime with sizes known only at run time.
 //!
-//! The runtime's observers have const-generic sizes. The state count N is
-//! dispatched exactly (1 ≤ N ≤ [`MAX_N`], one instance per N and observer
-//! type); inputs and outputs are zero-padded to [`MAX_M`] and [`MAX_P`].
+//! The runtime's observers have const-generic sizes. A design runs in a
+//! size class ([`crate::sizes`]: a finite set of N, M, P, chosen so that
+//! every model the design accepts has one): its states, inputs and outputs
+//! are zero-padded up to the class. Tables are built once per run, owned on
+//! the heap ([`TableSet`]), and observers borrow them ([`Stepper`]).
 //!
-//! Why padding is exact. Padded inputs get zero columns in B (G) and D and
+//! Why padding is exact. Padded states get zero rows and columns in every
+//! table (A, B, the gain, F, G, H, and zero columns in C), start at 0 and
+//! stay 0: each of their updates is a sum of products with zero table
+//! entries, and a real state's update adds their zero columns times their
+//! zero value. In fixed point a padded row's exponent is whatever the
+//! quantiser gives an all-zero row; it only shifts that row's zero sum, and
+//! the real rows' exponents depend only on their own entries (the check
+//! against the design's emitted tables, integer by integer, covers exactly
+//! the real rows and would fail otherwise); a padded state's scale exponent
+//! is 0, at which 0 is exact and never saturates. Padded inputs get zero columns in B (G) and D and
 //! a zero value; padded outputs get zero rows in C and D, zero columns in the
 //! gain (L, K or H), zero rows and columns in the gate's S⁻¹, a zero
 //! 1/S_jj, and a zero reading that is always *offered* as valid. Then:
@@ -31,26 +42,10 @@
 //! misses, which widens its test, would differ). A unit test checks that a
 //! padded run equals an unpadded one bit for bit.
 
-use super::plant::Trajectory;
 use crate::SimError;
-use lookout::{
-    ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
-    FixedFusedObserver, FixedFusedTables, FixedPredictorObserver, FixedPredictorTables,
-    FusedObserver, FusedTables, Gate, Matrix, Observer, Outcome, Plant, PredictorObserver,
-    PredictorTables, Q15, Q31, Real, Recovery, Scales, Status, dequantise_real, quantise_real,
-};
+use crate::tables::{FixedTables, FloatTables, Scalar, fixed_tables, float_tables};
+use lookout::{ChannelMask, Fixed, Observer, Q15, Q31, Status, dequantise_real, quantise_real};
 use lookout_design::Design;
-use lookout_design::fixed_point::QuantisedTable;
-use lookout_design::model::{FixedFormat, Form};
-use nalgebra::DMatrix;
-
-/// Largest state count the command steps (estimated states, disturbance
-/// states included).
-pub const MAX_N: usize = 8;
-/// Largest input count (inputs are padded to it).
-pub const MAX_M: usize = 4;
-/// Largest output count (outputs are padded to it).
-pub const MAX_P: usize = 4;
 
 /// A number format of the observer.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -83,173 +78,28 @@ pub struct FormatRun {
     /// The format.
     pub format: Format,
     /// Estimate of every state at steps 0..=steps (the prediction x̂[k|k−1]
-    /// for the current form, whose error obeys e⁺ = F e), n per row.
+    /// for the current form, whose error obeys e⁺ = F e), n per row; empty
+    /// unless the run was asked to keep its series.
     pub estimate: Vec<f64>,
+    /// Largest |x̂_i| over the run per state.
+    pub estimate_peak: Vec<f64>,
     /// Saturated stores plus inputs and readings clamped to their scale.
     pub saturations: u64,
     /// Steps whose measurement failed the innovation gate.
     pub gated: usize,
-    /// Which steps those were (for the plot).
+    /// Which steps those were (for the plot; kept with the series only).
     pub gated_steps: Vec<usize>,
     /// Steps whose reading the gate applied untested after too many misses.
     pub reacquired: usize,
 }
 
-/// Refuses models the dispatch does not cover.
-pub fn check_sizes(design: &Design) -> Result<(), SimError> {
-    let (n, m, p) = (design.n(), design.m(), design.p());
-    if n == 0 || n > MAX_N || m > MAX_M || p == 0 || p > MAX_P {
-        return Err(SimError::BadInput(format!(
-            "{}: simulate supports 1 to {MAX_N} states (disturbance states included), up to {MAX_M} inputs and 1 to {MAX_P} outputs; this model has n = {n}, m = {m}, p = {p}",
-            design.origin
-        )));
-    }
-    Ok(())
-}
-
-/// Runs `format` over `traj` from the estimate `x0`.
-pub fn run(
-    design: &Design,
-    format: Format,
-    traj: &Trajectory,
-    x0: &[f64],
-) -> Result<FormatRun, SimError> {
-    macro_rules! dispatch {
-        ($($n:literal)*) => {
-            match design.n() {
-                $($n => run_sized::<$n, MAX_M, MAX_P>(design, format, traj, x0),)*
-                _ => check_sizes(design).and(Err(SimError::Failure("size dispatch".into()))),
-            }
-        };
-    }
-    dispatch!(1 2 3 4 5 6 7 8)
-}
-
-/// The float type of a float observer.
-trait Scalar: Real {
-    fn of(v: f64) -> Option<Self>;
-    fn to(self) -> f64;
-}
-
-impl Scalar for f64 {
-    fn of(v: f64) -> Option<Self> {
-        Some(v)
-    }
-    fn to(self) -> f64 {
-        self
-    }
-}
-
-impl Scalar for f32 {
-    fn of(v: f64) -> Option<Self> {
-        #[allow(clippy::cast_possible_truncation)] // rounding to f32 is the point
-        let narrow = v as f32;
-        (narrow.is_finite() || !v.is_finite()).then_some(narrow)
-    }
-    fn to(self) -> f64 {
-        f64::from(self)
-    }
-}
-
-/// `m` (r × c, r ≤ R, c ≤ C) zero-padded to R × C in type T.
-fn padded<T: Scalar, const R: usize, const C: usize>(
-    name: &str,
-    m: &DMatrix<f64>,
-) -> Result<Matrix<T, R, C>, SimError> {
-    let zero = T::of(0.0).ok_or_else(|| SimError::Failure("zero".into()))?;
-    let mut rows = [[zero; C]; R];
-    for (i, row) in rows.iter_mut().enumerate().take(m.nrows()) {
-        for (j, slot) in row.iter_mut().enumerate().take(m.ncols()) {
-            let v = m.get((i, j)).copied().unwrap_or(0.0);
-            *slot = T::of(v).ok_or_else(|| {
-                SimError::BadInput(format!(
-                    "table {name}: entry ({i}, {j}) = {v:e} does not fit the number format"
-                ))
-            })?;
-        }
-    }
-    Ok(Matrix::from_rows(rows))
-}
-
-fn padded_vec<T: Scalar, const K: usize>(v: &[f64]) -> [T; K] {
-    let mut out = [T::of(0.0).unwrap_or_else(T::nan); K];
-    for (o, &x) in out.iter_mut().zip(v) {
-        *o = T::of(x).unwrap_or_else(T::nan);
-    }
-    out
-}
-
-/// The design's float tables for its form, padded, in type T.
-enum FloatTables<T, const N: usize, const M: usize, const P: usize> {
-    Predictor(PredictorTables<T, N, M, P>),
-    Current(CurrentTables<T, N, M, P>),
-    Fused(FusedTables<T, N, M, P>),
-}
-
-/// The gate's widened limits in `T` (a limit beyond `T`'s range is
-/// infinite: that stage accepts every finite reading).
-fn recovery<T: Scalar>(g: &lookout_design::design::GateDesign) -> Recovery<T> {
-    let of = |v: f64| T::of(v).unwrap_or_else(T::infinity);
-    let mut r = Recovery::none(of(0.0));
-    let pairs = g.recovery_limits();
-    r.stages = u8::try_from(pairs.len()).unwrap_or(u8::MAX);
-    r.per_miss = g.per_miss;
-    for (slot, [a, b]) in r.limits.iter_mut().zip(pairs) {
-        *slot = [of(a), of(b)];
-    }
-    r
-}
-
-fn float_tables<T: Scalar, const N: usize, const M: usize, const P: usize>(
-    d: &Design,
-) -> Result<FloatTables<T, N, M, P>, SimError> {
-    let gate = match &d.gate {
-        None => None,
-        Some(g) => Some(Gate {
-            s_inv: padded("S⁻¹", &g.s_inv)?,
-            limit: T::of(g.limit).unwrap_or_else(T::infinity),
-            channel_inv_variance: padded_vec(&g.channel_inv_variance),
-            channel_limit: T::of(g.channel_limit).unwrap_or_else(T::infinity),
-            recovery: recovery(g),
-        }),
-    };
-    let plant = || -> Result<Plant<T, N, M, P>, SimError> {
-        Ok(Plant {
-            a: padded("ad", &d.ad)?,
-            b: padded("bd", &d.bd)?,
-            c: padded("cd", &d.cd)?,
-            d: padded("dd", &d.dd)?,
-        })
-    };
-    Ok(match (&d.gain, d.model.observer.form) {
-        (Some(l), Form::Predictor) => FloatTables::Predictor(PredictorTables {
-            plant: plant()?,
-            l: padded("l", l)?,
-            gate,
-        }),
-        (Some(k), Form::Current) => FloatTables::Current(CurrentTables {
-            plant: plant()?,
-            k: padded("k", k)?,
-            gate,
-        }),
-        (None, _) => FloatTables::Fused(FusedTables {
-            f: padded("f", &d.f)?,
-            g: padded("g", &d.g)?,
-            h: padded("h", &d.h)?,
-            c: padded("cd", &d.cd)?,
-            d: padded("dd", &d.dd)?,
-            gate,
-        }),
-    })
-}
-
 /// One observer step on the real-size data of a run.
-trait Stepper {
+pub trait Stepper {
     /// Steps with input `u` (m values), readings `y` (p) and their validity;
     /// returns the status and the number of values clamped on the way in.
     fn step(&mut self, u: &[f64], y: &[f64], valid: &[bool]) -> (Status, u32);
-    /// Appends the first `n` entries of the estimate x̂[k|k−1].
-    fn push_estimate(&self, n: usize, out: &mut Vec<f64>);
+    /// Writes the first `out.len()` entries of the estimate x̂[k|k−1].
+    fn estimate_into(&self, out: &mut [f64]);
 }
 
 fn mask<const P: usize>(valid: &[bool]) -> ChannelMask {
@@ -270,16 +120,6 @@ fn to_q<Q: Fixed>(v: f64, e: i8) -> (Q, bool) {
         None if v > 0.0 => (Q::MAX, true),
         None => (Q::MIN, true),
     }
-}
-
-fn q_vec<Q: Fixed, const K: usize>(v: &[f64], exps: &[i8; K], clamped: &mut u32) -> [Q; K] {
-    let mut out = [Q::ZERO; K];
-    for ((o, &x), &e) in out.iter_mut().zip(v).zip(exps) {
-        let (q, c) = to_q(x, e);
-        *o = q;
-        *clamped += u32::from(c);
-    }
-    out
 }
 
 /// A scalar the simulator's f64 signals convert to and from, at a scale
@@ -344,226 +184,110 @@ where
         let y = signals(y, s.map(|s| &s.output), &mut clamped);
         (self.0.step_masked(&u, &y, mask::<P>(valid)), clamped)
     }
-    fn push_estimate(&self, n: usize, out: &mut Vec<f64>) {
+    fn estimate_into(&self, out: &mut [f64]) {
         let s = self.0.scales().map(|s| &s.state);
-        out.extend(
-            self.0
-                .estimate()
-                .iter()
-                .enumerate()
-                .take(n)
-                .map(|(i, &v)| v.to_f64(s.and_then(|s| s.get(i)).copied().unwrap_or(0))),
-        );
+        for (i, (o, &v)) in out.iter_mut().zip(self.0.estimate()).enumerate() {
+            *o = v.to_f64(s.and_then(|s| s.get(i)).copied().unwrap_or(0));
+        }
     }
 }
 
-/// Drives `obs` over the run. Not generic: one copy serves every size.
-fn drive(obs: &mut dyn Stepper, format: Format, traj: &Trajectory) -> FormatRun {
-    let (n, m, p) = (traj.n, traj.m, traj.p);
-    let mut run = FormatRun {
-        format,
-        estimate: Vec::with_capacity((traj.steps + 1) * n),
-        saturations: 0,
-        gated: 0,
-        gated_steps: Vec::new(),
-        reacquired: 0,
+/// One format's tables at a size class, owned (on the heap); observers
+/// borrow them.
+pub trait TableSet: Send {
+    /// A new observer started from the estimate `x0` (run size), and how
+    /// many of `x0`'s values were clamped into the format's range.
+    fn observer<'a>(&'a self, x0: &[f64]) -> (Box<dyn Stepper + 'a>, u32);
+}
+
+/// Tables and the state exponents their observer's start is converted at
+/// (zero for floats, which ignore them).
+struct Owned<Tab, const N: usize> {
+    tables: Tab,
+    exps: [i8; N],
+}
+
+macro_rules! table_set {
+    ($tab:ident => $obs:ident where $($bounds:tt)*) => {
+        impl<S, const N: usize, const M: usize, const P: usize> TableSet
+            for Owned<lookout::$tab<S, N, M, P>, N>
+        where
+            $($bounds)*
+        {
+            fn observer<'a>(&'a self, x0: &[f64]) -> (Box<dyn Stepper + 'a>, u32) {
+                let mut clamped = 0;
+                let x = signals::<S, N>(x0, Some(&self.exps), &mut clamped);
+                let observer = lookout::$obs::new(&self.tables, x);
+                (Box::new(Sized::<_, N, M, P>(observer)), clamped)
+            }
+        }
     };
-    obs.push_estimate(n, &mut run.estimate);
-    for k in 0..traj.steps {
-        let u = traj.u.get(k * m..(k + 1) * m).unwrap_or(&[]);
-        let y = traj.y.get(k * p..(k + 1) * p).unwrap_or(&[]);
-        let valid = traj.valid.get(k * p..(k + 1) * p).unwrap_or(&[]);
-        let (status, clamped) = obs.step(u, y, valid);
-        run.saturations += u64::from(status.saturations) + u64::from(clamped);
-        if status.outcome == Outcome::Gated {
-            run.gated += 1;
-            run.gated_steps.push(k);
-        }
-        run.reacquired += usize::from(status.outcome == Outcome::Reacquired);
-        obs.push_estimate(n, &mut run.estimate);
-    }
-    run
+}
+table_set!(PredictorTables => PredictorObserver where S: Scalar + Signal);
+table_set!(CurrentTables => CurrentObserver where S: Scalar + Signal);
+table_set!(FusedTables => FusedObserver where S: Scalar + Signal);
+table_set!(FixedPredictorTables => FixedPredictorObserver where S: Fixed + Signal + Send, S::Acc: Send);
+table_set!(FixedCurrentTables => FixedCurrentObserver where S: Fixed + Signal + Send, S::Acc: Send);
+table_set!(FixedFusedTables => FixedFusedObserver where S: Fixed + Signal + Send, S::Acc: Send);
+
+fn owned<Tab: 'static, const N: usize>(tables: Tab, exps: [i8; N]) -> Box<Owned<Tab, N>> {
+    Box::new(Owned { tables, exps })
 }
 
-/// Runs `format` at sizes N, M, P (M ≥ m, P ≥ p: the rest is padding).
-pub(crate) fn run_sized<const N: usize, const M: usize, const P: usize>(
+fn float_set<T: Scalar + Signal + 'static, const N: usize, const M: usize, const P: usize>(
     design: &Design,
-    format: Format,
-    traj: &Trajectory,
-    x0: &[f64],
-) -> Result<FormatRun, SimError> {
-    match format {
-        Format::F64 => run_float::<f64, N, M, P>(design, format, traj, x0),
-        Format::F32 => run_float::<f32, N, M, P>(design, format, traj, x0),
-        Format::Q31 => run_fixed::<Q31, N, M, P>(design, format, traj, x0),
-        Format::Q15 => run_fixed::<Q15, N, M, P>(design, format, traj, x0),
-    }
-}
-
-fn run_float<T: Scalar, const N: usize, const M: usize, const P: usize>(
-    design: &Design,
-    format: Format,
-    traj: &Trajectory,
-    x0: &[f64],
-) -> Result<FormatRun, SimError> {
-    let x0 = padded_vec::<T, N>(x0);
+) -> Result<Box<dyn TableSet>, SimError> {
     Ok(match float_tables::<T, N, M, P>(design)? {
-        FloatTables::Predictor(t) => {
-            drive(&mut Sized(PredictorObserver::new(&t, x0)), format, traj)
-        }
-        FloatTables::Current(t) => drive(&mut Sized(CurrentObserver::new(&t, x0)), format, traj),
-        FloatTables::Fused(t) => drive(&mut Sized(FusedObserver::new(&t, x0)), format, traj),
+        FloatTables::Predictor(t) => owned(t, [0; N]),
+        FloatTables::Current(t) => owned(t, [0; N]),
+        FloatTables::Fused(t) => owned(t, [0; N]),
     })
 }
 
-fn pad_exponents<const K: usize>(e: &[i8]) -> [i8; K] {
-    let mut out = [0; K];
-    for (o, &v) in out.iter_mut().zip(e) {
-        *o = v;
-    }
-    out
-}
-
-fn run_fixed<Q: Fixed + Signal, const N: usize, const M: usize, const P: usize>(
+fn fixed_set<
+    Q: Fixed<Acc: Send> + Signal + Send + Sync + 'static,
+    const N: usize,
+    const M: usize,
+    const P: usize,
+>(
     design: &Design,
     format: Format,
-    traj: &Trajectory,
-    x0: &[f64],
-) -> Result<FormatRun, SimError> {
-    let fixed = design
-        .fixed_point
-        .as_ref()
-        .ok_or_else(|| SimError::Failure(format!("{}: no [fixed_point] section", format.name())))?;
-    let scales = Scales::<N, M, P> {
-        state: pad_exponents(&fixed.state_exponents),
-        input: pad_exponents(&fixed.input_exponents),
-        output: pad_exponents(&fixed.output_exponents),
-    };
-    let designed = match fixed.format {
-        FixedFormat::Q31 => format == Format::Q31,
-        FixedFormat::Q15 => format == Format::Q15,
-    };
-    let convert = |e: lookout::ConvertError| {
-        SimError::BadInput(format!(
-            "{}: {} tables cannot be built with the design's scales: {e:?}",
-            design.origin,
-            format.name()
-        ))
-    };
-    let mut clamped = 0;
-    let x0 = q_vec::<Q, N>(x0, &scales.state, &mut clamped);
-    let mut run = match float_tables::<f64, N, M, P>(design)? {
-        FloatTables::Predictor(t) => {
-            let q = FixedPredictorTables::<Q, N, M, P>::from_float(&t, scales).map_err(convert)?;
-            if designed {
-                let o = &q.output;
-                check_tables(
-                    &fixed.form_tables,
-                    &[
-                        (&as_i64(&q.a), &q.exp),
-                        (&as_i64(&q.b), &q.exp),
-                        (&as_i64(&q.l), &q.exp),
-                    ],
-                    &[(&as_i64(&o.c), &o.exp), (&as_i64(&o.d), &o.exp)],
-                )?;
-            }
-            drive(
-                &mut Sized(FixedPredictorObserver::new(&q, x0)),
-                format,
-                traj,
-            )
+) -> Result<Box<dyn TableSet>, SimError> {
+    Ok(match fixed_tables::<Q, N, M, P>(design, format)? {
+        FixedTables::Predictor(t) => {
+            let e = t.scales.state;
+            owned(t, e)
         }
-        FloatTables::Current(t) => {
-            let q = FixedCurrentTables::<Q, N, M, P>::from_float(&t, scales).map_err(convert)?;
-            if designed {
-                let o = &q.output;
-                check_tables(
-                    &fixed.form_tables,
-                    &[
-                        (&as_i64(&q.a), &q.exp),
-                        (&as_i64(&q.b), &q.exp),
-                        (&as_i64(&q.k), &q.k_exp),
-                    ],
-                    &[(&as_i64(&o.c), &o.exp), (&as_i64(&o.d), &o.exp)],
-                )?;
-            }
-            drive(&mut Sized(FixedCurrentObserver::new(&q, x0)), format, traj)
+        FixedTables::Current(t) => {
+            let e = t.scales.state;
+            owned(t, e)
         }
-        FloatTables::Fused(t) => {
-            let q = FixedFusedTables::<Q, N, M, P>::from_float(&t, scales).map_err(convert)?;
-            if designed {
-                let o = &q.output;
-                check_tables(
-                    &fixed.fused_tables,
-                    &[
-                        (&as_i64(&q.f), &q.exp),
-                        (&as_i64(&q.g), &q.exp),
-                        (&as_i64(&q.h), &q.exp),
-                    ],
-                    &[(&as_i64(&o.c), &o.exp), (&as_i64(&o.d), &o.exp)],
-                )?;
-            }
-            drive(&mut Sized(FixedFusedObserver::new(&q, x0)), format, traj)
+        FixedTables::Fused(t) => {
+            let e = t.scales.state;
+            owned(t, e)
         }
-    };
-    run.saturations += u64::from(clamped);
-    Ok(run)
+    })
 }
 
-/// The stored integers of a padded Q table, row-major.
-fn as_i64<Q: Fixed, const R: usize, const C: usize>(m: &Matrix<Q, R, C>) -> Vec<Vec<i64>> {
-    m.to_rows()
-        .iter()
-        .map(|row| row.iter().map(|q| q.to_i64()).collect())
-        .collect()
-}
-
-/// Checks that the runtime's `from_float` made the integers and row
-/// exponents the design emits (`tables` in the design's order: the three
-/// state-row tables, then c and d).
-fn check_tables(
-    designed: &[QuantisedTable],
-    state_rows: &[(&Vec<Vec<i64>>, &[i8])],
-    output_rows: &[(&Vec<Vec<i64>>, &[i8])],
-) -> Result<(), SimError> {
-    let ours = state_rows.iter().chain(output_rows);
-    if designed.len() != state_rows.len() + output_rows.len() {
-        return Err(SimError::Failure(format!(
-            "the design lists {} Q tables, the runtime builds {}",
-            designed.len(),
-            state_rows.len() + output_rows.len()
-        )));
+/// `format`'s tables at sizes N, M, P (N ≥ n, M ≥ m, P ≥ p: the rest is
+/// padding).
+pub(crate) fn build_sized<const N: usize, const M: usize, const P: usize>(
+    design: &Design,
+    format: Format,
+) -> Result<Box<dyn TableSet>, SimError> {
+    match format {
+        Format::F64 => float_set::<f64, N, M, P>(design),
+        Format::F32 => float_set::<f32, N, M, P>(design),
+        Format::Q31 => fixed_set::<Q31, N, M, P>(design, format),
+        Format::Q15 => fixed_set::<Q15, N, M, P>(design, format),
     }
-    for (table, (ints, exps)) in designed.iter().zip(ours) {
-        for i in 0..table.q.nrows() {
-            let exp = exps.get(i).copied();
-            if exp != table.exponents.get(i).copied() {
-                return Err(SimError::Failure(format!(
-                    "Q table {}: row {i} exponent {:?} from the runtime, {:?} from the design",
-                    table.name,
-                    exp,
-                    table.exponents.get(i)
-                )));
-            }
-            for j in 0..table.q.ncols() {
-                let ours = ints.get(i).and_then(|r| r.get(j)).copied();
-                let theirs = table.q.get((i, j)).copied();
-                if ours != theirs {
-                    return Err(SimError::Failure(format!(
-                        "Q table {}: entry ({i}, {j}) is {ours:?} from the runtime's from_float, {theirs:?} in the design",
-                        table.name
-                    )));
-                }
-            }
-        }
-    }
-    Ok(())
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
     use crate::config::{InputDisturbance, RunConfig};
+    use crate::engine::over;
     use crate::plant::{TruePlant, record};
     use crate::signal::InputSignal;
 
@@ -594,9 +318,10 @@ mod tests {
     }
 
     /// The padding argument of the module docs, checked: the demo models
-    /// (predictor with Q tables; current form with a gate) run padded to
-    /// M = P = 4 give the same estimates, bit for bit, as at their own
-    /// sizes, with dropouts, outliers, noise and mismatch exercising the
+    /// (predictor with Q tables; current form with a gate) run in their
+    /// size class (N = 2, M = P = 4), with states padded too (N = 5 and
+    /// N = 12, M = P = 8) give the same estimates, bit for bit, as at their
+    /// own sizes, with dropouts, outliers, noise and mismatch exercising the
     /// missing-channel and gate branches. Zero is compared by value (a
     /// padded sum may turn −0 into +0, see the module docs).
     #[test]
@@ -614,19 +339,25 @@ mod tests {
             let x0 = [0.05, -2.0];
             let mut gated = 0;
             for format in crate::formats(&design) {
-                let padded = run(&design, format, &traj, &x0).unwrap();
-                let exact = run_sized::<2, 1, 1>(&design, format, &traj, &x0).unwrap();
-                assert_eq!(padded.estimate.len(), exact.estimate.len());
-                for (k, (p, e)) in padded.estimate.iter().zip(&exact.estimate).enumerate() {
-                    assert!(
-                        p.to_bits() == e.to_bits() || (*p == 0.0 && *e == 0.0),
-                        "{model} {}: entry {k}: padded {p:e}, unpadded {e:e}",
-                        format.name()
-                    );
+                let at = |t: Box<dyn TableSet>| over(&vec![(format, t)], &traj, &x0).remove(0);
+                let exact = at(build_sized::<2, 1, 1>(&design, format).unwrap());
+                for padded in [
+                    at(crate::sizes::build(&design, format).unwrap()),
+                    at(build_sized::<5, 4, 4>(&design, format).unwrap()),
+                    at(build_sized::<12, 8, 8>(&design, format).unwrap()),
+                ] {
+                    assert_eq!(padded.estimate.len(), exact.estimate.len());
+                    for (k, (p, e)) in padded.estimate.iter().zip(&exact.estimate).enumerate() {
+                        assert!(
+                            p.to_bits() == e.to_bits() || (*p == 0.0 && *e == 0.0),
+                            "{model} {}: entry {k}: padded {p:e}, unpadded {e:e}",
+                            format.name()
+                        );
+                    }
+                    assert_eq!(padded.gated, exact.gated);
+                    assert_eq!(padded.saturations, exact.saturations);
                 }
-                assert_eq!(padded.gated, exact.gated);
-                assert_eq!(padded.saturations, exact.saturations);
-                gated += padded.gated;
+                gated += exact.gated;
             }
             if design.gate.is_some() {
                 assert!(gated > 0, "{model}: the gate branch was not exercised");

@@ -96,46 +96,69 @@ impl InputSignal {
         }
     }
 
-    /// The commanded inputs of `steps` steps on `m` channels, row-major
-    /// (step k, channel j at k·m + j), for sample period `t`.
-    pub fn series(&self, steps: usize, m: usize, t: f64) -> Vec<f64> {
-        let mut out = vec![0.0; steps * m];
-        for j in 0..m {
-            let mut prbs = Lfsr15::for_channel(j);
-            let mut bit = prbs.clock();
-            for k in 0..steps {
-                let v = match self {
-                    Self::Step { amplitude, at } => {
-                        if k >= *at {
-                            *amplitude
-                        } else {
-                            0.0
-                        }
-                    }
-                    Self::Sine { amplitude, hz } => {
-                        amplitude * (std::f64::consts::TAU * hz * k as f64 * t).sin()
-                    }
-                    Self::Prbs { amplitude, hold } => {
-                        if k > 0 && k % hold == 0 {
-                            bit = prbs.clock();
-                        }
-                        if bit { *amplitude } else { -amplitude }
-                    }
-                    Self::Table(rows) => rows.get(k).and_then(|r| r.get(j)).copied().unwrap_or(0.0),
-                };
-                if let Some(slot) = out.get_mut(k * m + j) {
-                    *slot = v;
-                }
-            }
-        }
-        out
-    }
-
     /// The number of rows a table holds (`None` for generated signals).
     pub fn rows(&self) -> Option<usize> {
         match self {
             Self::Table(rows) => Some(rows.len()),
             _ => None,
+        }
+    }
+}
+
+/// The commanded input a step at a time, on `m` channels, for sample
+/// period `t`.
+pub struct InputStream<'a> {
+    signal: &'a InputSignal,
+    t: f64,
+    k: usize,
+    /// Per channel: its shift register and the bit it holds.
+    prbs: Vec<(Lfsr15, bool)>,
+}
+
+impl<'a> InputStream<'a> {
+    /// The stream of `signal` from step 0.
+    pub fn new(signal: &'a InputSignal, m: usize, t: f64) -> Self {
+        let prbs = (0..m)
+            .map(|j| {
+                let mut r = Lfsr15::for_channel(j);
+                let bit = r.clock();
+                (r, bit)
+            })
+            .collect();
+        Self {
+            signal,
+            t,
+            k: 0,
+            prbs,
+        }
+    }
+
+    /// The inputs of the next step into `out` (one per channel).
+    pub fn next_row(&mut self, out: &mut [f64]) {
+        let k = self.k;
+        self.k += 1;
+        for (j, (slot, (prbs, bit))) in out.iter_mut().zip(&mut self.prbs).enumerate() {
+            *slot = match self.signal {
+                InputSignal::Step { amplitude, at } => {
+                    if k >= *at {
+                        *amplitude
+                    } else {
+                        0.0
+                    }
+                }
+                InputSignal::Sine { amplitude, hz } => {
+                    amplitude * (std::f64::consts::TAU * hz * k as f64 * self.t).sin()
+                }
+                InputSignal::Prbs { amplitude, hold } => {
+                    if k > 0 && k.is_multiple_of(*hold) {
+                        *bit = prbs.clock();
+                    }
+                    if *bit { *amplitude } else { -amplitude }
+                }
+                InputSignal::Table(rows) => {
+                    rows.get(k).and_then(|r| r.get(j)).copied().unwrap_or(0.0)
+                }
+            };
         }
     }
 }

@@ -11,7 +11,7 @@ pub mod plot;
 use crate::error::CliError;
 use crate::sim::plant::Trajectory;
 use crate::sim::runtime::{Format, FormatRun};
-use crate::sim::{predicted, run_formats, runtime};
+use crate::sim::{predicted, run_formats};
 use lookout_design::Design;
 use lookout_design::model::Form;
 use lookout_design::replay::{
@@ -76,7 +76,7 @@ pub struct Replay {
 /// `lookout replay`: checks the options, reads the log, replays it, writes
 /// the files asked for and returns what goes to standard output.
 pub fn command(design: &Design, args: &crate::cli::ReplayArgs) -> Result<String, CliError> {
-    runtime::check_sizes(design)?;
+    lookout_sim::sizes::check_sizes(design)?;
     let lags = usize::try_from(args.lags)
         .ok()
         .filter(|&l| (1..=1000).contains(&l))
@@ -161,10 +161,11 @@ fn max_deviation(n: usize, run: &FormatRun, reference: &FormatRun) -> Vec<f64> {
 
 /// Replays `traj` through `design`.
 pub fn replay(design: &Design, traj: Trajectory, opts: &ReplayOptions) -> Result<Replay, CliError> {
-    runtime::check_sizes(design)?;
+    lookout_sim::sizes::check_sizes(design)?;
     check_memory(design, traj.steps)?;
     let x0 = vec![0.0; design.n()];
     let (runs, skipped) = run_formats(design, &crate::sim::formats(design), &traj, &x0)?;
+    let signals = crate::sim::metrics::Peaks::of(&traj);
     let reference = runs
         .first()
         .cloned()
@@ -198,7 +199,13 @@ pub fn replay(design: &Design, traj: Trajectory, opts: &ReplayOptions) -> Result
                 noise,
                 max_deviation: max_deviation(traj.n, &run, &reference),
                 bound: predicted::bound(design, run.format),
-                not_covered: predicted::not_covered(design, &traj, &run, Some(&reference)),
+                not_covered: predicted::not_covered(
+                    design,
+                    traj.dropped,
+                    &signals,
+                    &run,
+                    Some(&reference),
+                ),
                 innovations,
                 run,
             }

@@ -22,14 +22,16 @@ use options::SimOptions;
 use reference::Reference;
 use runtime::Format;
 
-/// One run of the engine with the options' settings and plant seed `seed`.
+/// One run of the engine with the options' settings and plant seed `seed`,
+/// keeping nothing but its figures (constant memory).
 pub fn run_once(
     design: &Design,
     opts: &SimOptions,
     setup: &Setup,
     seed: u64,
 ) -> Result<RunResult, CliError> {
-    Ok(lookout_sim::run_once(design, opts, setup, seed)?)
+    let out = lookout_sim::Outputs::default();
+    Ok(lookout_sim::run_once(design, opts, setup, seed, out)?)
 }
 
 /// `--formats`: a comma-separated list; f64 always runs first (every
@@ -61,15 +63,19 @@ pub fn requested_formats(design: &Design, text: Option<&str>) -> Result<Vec<Form
     Ok(out)
 }
 
-/// Largest memory the recorded time series of one run may take (bytes):
-/// the truth, inputs, readings and every format's estimates are kept for
-/// the metrics, the CSV and the plot.
+/// Largest memory the time series of one run may take (bytes): the truth,
+/// inputs, readings and every format's estimates are kept for the plot (a
+/// run without `--plot` keeps none; `--csv` writes them as they come).
 pub const MAX_SERIES_BYTES: u64 = 1 << 30;
+
+/// Most steps of one run: its memory does not grow with them (without
+/// `--plot`), its time does.
+pub const MAX_STEPS: usize = 10_000_000;
 
 /// Checks the options of `lookout simulate` against the design, before
 /// anything is printed or simulated: every refusal names the option.
 pub fn prepare(design: &Design, args: &SimArgs) -> Result<(SimOptions, Setup), CliError> {
-    runtime::check_sizes(design)?;
+    lookout_sim::sizes::check_sizes(design)?;
     let mut opts = SimOptions::from_args(args, design.n(), design.m())?;
     if opts.sweep.is_some() && (args.plot.is_some() || args.csv.is_some()) {
         return Err(CliError::BadInput(
@@ -87,38 +93,30 @@ pub fn prepare(design: &Design, args: &SimArgs) -> Result<(SimOptions, Setup), C
     if args.initial_error.is_none() {
         opts.run.initial_error = setup.reference.initial_error();
     }
-    check_memory(design, &opts, setup.formats.len(), args.csv.is_some())?;
+    if opts.steps > MAX_STEPS {
+        return Err(CliError::BadInput(format!(
+            "--steps {}: at most {MAX_STEPS} steps per run (its time grows with the steps)",
+            opts.steps
+        )));
+    }
+    if args.plot.is_some() {
+        check_memory(design, &opts, setup.formats.len())?;
+    }
     Ok((opts, setup))
 }
 
-/// Refuses a run whose time series would not fit [`MAX_SERIES_BYTES`]
-/// (per run in parallel for a sweep), estimated before anything is allocated.
-fn check_memory(
-    design: &Design,
-    opts: &SimOptions,
-    formats: usize,
-    csv: bool,
-) -> Result<(), CliError> {
+/// Refuses a plotted run whose time series would not fit
+/// [`MAX_SERIES_BYTES`], estimated before anything is allocated.
+fn check_memory(design: &Design, opts: &SimOptions, formats: usize) -> Result<(), CliError> {
     let (n, m, p) = (design.n() as u64, design.m() as u64, design.p() as u64);
     let formats = formats as u64;
-    // f64 truth, inputs, readings and estimates, a flag per reading, and
-    // for --csv about 24 characters per number of the text.
-    let mut per_step = 8 * (n * (1 + formats) + m + p) + p;
-    if csv {
-        per_step += 24 * (n * (1 + 2 * formats) + 2 + m + p);
-    }
-    let parallel = if opts.sweep.is_some() {
-        rayon::current_num_threads().max(1) as u64
-    } else {
-        1
-    };
-    let bytes = (opts.steps as u64 + 1)
-        .saturating_mul(per_step)
-        .saturating_mul(parallel);
+    // f64 truth, inputs, readings and estimates, two flags per reading.
+    let per_step = 8 * (n * (1 + formats) + m + p) + 2 * p;
+    let bytes = (opts.steps as u64 + 1).saturating_mul(per_step);
     if bytes > MAX_SERIES_BYTES {
-        let most = MAX_SERIES_BYTES / per_step.saturating_mul(parallel).max(1);
+        let most = MAX_SERIES_BYTES / per_step.max(1);
         return Err(CliError::BadInput(format!(
-            "--steps {}: the run would need about {:.1} GiB for its time series (at most {} GiB); this model allows at most {} steps",
+            "--steps {}: the plot would need about {:.1} GiB for its time series (at most {} GiB); this model allows at most {} steps with --plot",
             opts.steps,
             bytes as f64 / (1u64 << 30) as f64,
             MAX_SERIES_BYTES >> 30,
@@ -143,10 +141,14 @@ pub fn simulate(
             output::sweep_text(design, opts, &summary)
         });
     }
-    let result = run_once(design, opts, setup, opts.seed)?;
-    if let Some(path) = &args.csv {
-        output::write_csv(path, design, &result)?;
-    }
+    let series = args.plot.is_some();
+    let result = match &args.csv {
+        Some(path) => output::run_with_csv(path, design, opts, setup, series)?,
+        None => {
+            let out = lookout_sim::Outputs { series, rows: None };
+            lookout_sim::run_once(design, opts, setup, opts.seed, out)?
+        }
+    };
     if let Some(path) = &args.plot {
         plot::write(path, args.font.as_deref(), design, &result)?;
     }

@@ -1,13 +1,15 @@
 //! The report, the JSON object and the CSV time series of `simulate`.
 
-use super::RunResult;
 use super::metrics::Metrics;
 use super::options::SimOptions;
 use super::runtime::{Format, FormatRun};
 use super::sweep::SweepSummary;
 use super::verdict::{Interval, Verdict};
+use super::{RunResult, Setup};
 use crate::error::CliError;
 use lookout_design::Design;
+use lookout_sim::plant::Row;
+use lookout_sim::{Outputs, SimError, Sink};
 use serde_json::{Value, json};
 use std::fmt::Write as _;
 use std::path::Path;
@@ -239,74 +241,137 @@ pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
     format!("{value}\n")
 }
 
-/// Appends the inputs and readings of step `k` (empty cells past the end
-/// and for dropped readings).
-fn write_log_cells(s: &mut String, traj: &super::plant::Trajectory, k: usize) {
-    let (m, p) = (traj.m, traj.p);
-    for j in 0..m {
-        match traj.u.get(k * m + j).filter(|_| k < traj.steps) {
-            Some(v) => {
-                let _ = write!(s, ",{v:?}");
-            }
-            None => s.push(','),
-        }
+/// The CSV time series, written a row at a time as the run produces it:
+/// step, time, then per state its truth, then per format and state its
+/// estimate and its error, then the inputs and the readings named as in the
+/// model (a dropped reading is an empty cell; the last row, the final
+/// state, has neither), so that the file is also a log
+/// `lookout replay --ignore-other-columns` reads.
+struct CsvSink<'w> {
+    out: csv::Writer<&'w mut dyn std::io::Write>,
+    design: &'w Design,
+    path: &'w Path,
+    cell: String,
+}
+
+impl CsvSink<'_> {
+    fn failed(&self, e: &dyn std::fmt::Display) -> SimError {
+        SimError::Failure(format!("{}: cannot write: {e}", self.path.display()))
     }
-    for j in 0..p {
-        let valid = traj.valid.get(k * p + j).copied().unwrap_or(false);
-        match traj.y.get(k * p + j).filter(|_| valid && k < traj.steps) {
-            Some(v) => {
-                let _ = write!(s, ",{v:?}");
-            }
-            None => s.push(','),
-        }
+
+    /// `v` in Rust's shortest round-trip form.
+    fn number(&mut self, v: f64) -> Result<(), SimError> {
+        self.cell.clear();
+        let _ = write!(self.cell, "{v:?}");
+        self.out
+            .write_field(&self.cell)
+            .map_err(|e| self.failed(&e))
+    }
+
+    fn text(&mut self, v: &str) -> Result<(), SimError> {
+        self.out.write_field(v).map_err(|e| self.failed(&e))
+    }
+
+    fn end(&mut self) -> Result<(), SimError> {
+        self.out
+            .write_record(None::<&[u8]>)
+            .map_err(|e| self.failed(&e))
     }
 }
 
-/// Writes the time series: step, time, then per state its truth, then per
-/// format and state its estimate and its error, then the inputs and the
-/// readings named as in the model (a dropped reading is an empty cell; the
-/// last row, the final state, has neither), so that the file is also a log
-/// `lookout replay --ignore-other-columns` reads.
-pub fn write_csv(path: &Path, design: &Design, r: &RunResult) -> Result<(), CliError> {
-    let names = design.state_names();
-    let n = r.traj.n;
-    let t = design.model.sample_period;
-    let mut s = String::from("step,time");
-    for name in &names {
-        let _ = write!(s, ",true_{name}");
-    }
-    for (run, _) in &r.formats {
+impl Sink for CsvSink<'_> {
+    fn formats(&mut self, formats: &[Format]) -> Result<(), SimError> {
+        let names = self.design.state_names();
+        self.text("step")?;
+        self.text("time")?;
         for name in &names {
-            let _ = write!(
-                s,
-                ",{0}_estimate_{name},{0}_error_{name}",
-                run.format.name()
-            );
+            self.text(&format!("true_{name}"))?;
         }
-    }
-    let (inputs, outputs) = crate::replay::log::column_names(design);
-    for name in inputs.iter().chain(&outputs) {
-        let _ = write!(s, ",{name}");
-    }
-    s.push('\n');
-    for k in 0..=r.traj.steps {
-        let _ = write!(s, "{k},{:?}", k as f64 * t);
-        let truth = r.traj.truth.get(k * n..(k + 1) * n).unwrap_or(&[]);
-        for x in truth {
-            let _ = write!(s, ",{x:?}");
-        }
-        for (run, _) in &r.formats {
-            let est = run.estimate.get(k * n..(k + 1) * n).unwrap_or(&[]);
-            for (xh, x) in est.iter().zip(truth) {
-                let _ = write!(s, ",{xh:?},{:?}", x - xh);
+        for f in formats {
+            for name in &names {
+                self.text(&format!("{}_estimate_{name}", f.name()))?;
+                self.text(&format!("{}_error_{name}", f.name()))?;
             }
         }
-        write_log_cells(&mut s, &r.traj, k);
-        s.push('\n');
+        let (inputs, outputs) = crate::replay::log::column_names(self.design);
+        for name in inputs.iter().chain(&outputs) {
+            self.text(name)?;
+        }
+        self.end()
     }
-    lookout_design::emit::write_file(path, s.as_bytes())
-        .map(|_| ())
-        .map_err(|e| CliError::Failure(e.to_string()))
+
+    fn row(&mut self, k: usize, row: &Row, estimates: &[f64]) -> Result<(), SimError> {
+        let t = self.design.model.sample_period;
+        self.text(&k.to_string())?;
+        self.number(k as f64 * t)?;
+        for &x in &row.truth {
+            self.number(x)?;
+        }
+        for est in estimates.chunks(row.truth.len().max(1)) {
+            for (&xh, &x) in est.iter().zip(&row.truth) {
+                self.number(xh)?;
+                self.number(x - xh)?;
+            }
+        }
+        let (m, p) = (self.design.m(), self.design.p());
+        for j in 0..m {
+            match row.u.get(j) {
+                Some(&v) => self.number(v)?,
+                None => self.text("")?,
+            }
+        }
+        for j in 0..p {
+            let valid = row.valid.get(j).copied().unwrap_or(false);
+            match row.y.get(j).filter(|_| valid) {
+                Some(&v) => self.number(v)?,
+                None => self.text("")?,
+            }
+        }
+        self.end()
+    }
+}
+
+/// One run (seed `--seed`) whose rows are written to `path` as they are
+/// produced; the file is written whole or not at all (a failed run leaves
+/// the target as it was).
+pub fn run_with_csv(
+    path: &Path,
+    design: &Design,
+    opts: &SimOptions,
+    setup: &Setup,
+    series: bool,
+) -> Result<RunResult, CliError> {
+    let mut outcome = None;
+    let written = lookout_design::emit::write_file_with(path, |w| {
+        let mut sink = CsvSink {
+            out: csv::WriterBuilder::new().from_writer(w),
+            design,
+            path,
+            cell: String::new(),
+        };
+        let rows: &mut dyn Sink = &mut sink;
+        let out = Outputs {
+            series,
+            rows: Some(rows),
+        };
+        let run = lookout_sim::run_once(design, opts, setup, opts.seed, out);
+        let flushed = sink.out.flush();
+        let failed = run.is_err();
+        outcome = Some(run);
+        if failed {
+            return Err(std::io::Error::other("the run failed"));
+        }
+        flushed
+    });
+    match (outcome, written) {
+        (Some(Err(e)), _) => Err(e.into()),
+        (_, Err(e)) => Err(CliError::Failure(e.to_string())),
+        (Some(Ok(r)), Ok(_)) => Ok(r),
+        (None, Ok(_)) => Err(CliError::Failure(format!(
+            "{}: the run was not made",
+            path.display()
+        ))),
+    }
 }
 
 /// The sweep report.

@@ -30,6 +30,16 @@ pub struct Written {
 
 /// Writes `bytes` to `path` as described in the module documentation.
 pub fn write_file(path: &Path, bytes: &[u8]) -> Result<Written, DesignError> {
+    write_file_with(path, |w| w.write_all(bytes))
+}
+
+/// Like [`write_file`], with the content written by `content` as it is
+/// produced (so it need not be held in memory); when `content` fails the
+/// target is left as it was.
+pub fn write_file_with(
+    path: &Path,
+    content: impl FnOnce(&mut dyn io::Write) -> io::Result<()>,
+) -> Result<Written, DesignError> {
     let target = resolve(path)?;
     let dir = match target.file.parent() {
         Some(d) if !d.as_os_str().is_empty() => d.to_path_buf(),
@@ -41,7 +51,7 @@ pub fn write_file(path: &Path, bytes: &[u8]) -> Result<Written, DesignError> {
             &format!("cannot create a temporary file in {}: {e}", dir.display()),
         )
     })?;
-    let result = fill(&mut file, bytes, target.permissions)
+    let result = fill(&mut file, content, target.permissions)
         .and_then(|()| fs::rename(&tmp, &target.file))
         .map_err(|e| io_error(path, &format!("cannot write: {e}")));
     drop(file);
@@ -158,8 +168,15 @@ fn create_temporary(dir: &Path, target: &Path) -> io::Result<(PathBuf, File)> {
     Err(last)
 }
 
-fn fill(file: &mut File, bytes: &[u8], permissions: Option<fs::Permissions>) -> io::Result<()> {
-    file.write_all(bytes)?;
+fn fill(
+    file: &mut File,
+    content: impl FnOnce(&mut dyn io::Write) -> io::Result<()>,
+    permissions: Option<fs::Permissions>,
+) -> io::Result<()> {
+    let mut buffered = io::BufWriter::new(&mut *file);
+    content(&mut buffered)?;
+    buffered.flush()?;
+    drop(buffered);
     if let Some(p) = permissions {
         file.set_permissions(p)?;
     }

@@ -21,7 +21,7 @@ mod fixed;
 pub(crate) mod gate;
 mod literal;
 
-pub use file::{Written, read_limited, read_text_limited, write_file};
+pub use file::{Written, read_limited, read_text_limited, write_file, write_file_with};
 pub use gate::MAX_FIXED_GATE_OUTPUTS;
 pub use literal::Scalar;
 
