@@ -71,6 +71,11 @@ pub trait Sink {
     /// Row `k` (0..=steps) and every format's estimate x̂[k], n values per
     /// format.
     fn row(&mut self, k: usize, row: &Row, estimates: &[f64]) -> Result<(), SimError>;
+    /// Step `k` of the second pass was measured: for progress or
+    /// resource accounting; nothing by default.
+    fn second_pass(&mut self, k: usize) {
+        let _ = k;
+    }
 }
 
 /// What a run keeps and where its rows go.
@@ -147,15 +152,14 @@ fn first_pass(
     design: &Design,
     (plant, opts, seed): (&TruePlant, &RunConfig, u64),
     built: &Built,
-    out: Outputs,
+    (series, mut sink): (bool, Option<&mut (dyn Sink + '_)>),
 ) -> Result<FirstPass, SimError> {
     let (n, steps) = (design.n(), opts.steps);
     let (mut stream, x0, warnings) = start(design, plant, opts, seed)?;
-    let mut all = Lockstep::new(built, &x0, out.series);
+    let mut all = Lockstep::new(built, &x0, series);
     let mut traj = Trajectory::empty(design, steps);
     let mut peaks = Peaks::new(design.m(), design.p());
     let mut running = vec![Running::new(n, steps); built.len()];
-    let mut sink = out.rows;
     if let Some(s) = sink.as_deref_mut() {
         s.formats(&all.runs.iter().map(|r| r.format).collect::<Vec<_>>())?;
     }
@@ -176,7 +180,7 @@ fn first_pass(
         if let Some(s) = sink.as_deref_mut() {
             s.row(k, row, &all.estimates)?;
         }
-        if out.series {
+        if series {
             traj.push(row);
         }
         if k < steps {
@@ -208,6 +212,7 @@ fn second_pass(
     built: &Built,
     tests: &Tests,
     mut settling: Vec<Settling>,
+    mut sink: Option<&mut (dyn Sink + '_)>,
 ) -> Result<Vec<Settling>, SimError> {
     let n = design.n();
     let (mut stream, x0, _) = start(design, plant, opts, seed)?;
@@ -226,6 +231,9 @@ fn second_pass(
                 y: &row.y,
             };
             s.add(design, tests, &sample);
+        }
+        if let Some(s) = sink.as_deref_mut() {
+            s.second_pass(k);
         }
         if k < opts.steps {
             all.step(k, row);
@@ -247,7 +255,13 @@ pub fn run_once(
     let reference = &setup.reference;
     let plant = TruePlant::of(design, opts.mismatch, seed)?;
     let (built, skipped) = build_formats(design, &setup.formats)?;
-    let first = first_pass(design, (&plant, opts, seed), &built, out)?;
+    let mut sink = out.rows;
+    let first = first_pass(
+        design,
+        (&plant, opts, seed),
+        &built,
+        (out.series, sink.as_deref_mut()),
+    )?;
     let reference_run = first
         .runs
         .first()
@@ -277,7 +291,7 @@ pub fn run_once(
         });
     }
     let tests = Tests::of(reference);
-    let settled = second_pass(design, (&plant, opts, seed), &built, &tests, settling)?;
+    let settled = second_pass(design, (&plant, opts, seed), &built, &tests, settling, sink)?;
     let mut formats: Vec<(FormatRun, Metrics)> = first
         .runs
         .into_iter()
