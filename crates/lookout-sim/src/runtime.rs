@@ -290,6 +290,7 @@ mod tests {
     use crate::engine::over;
     use crate::plant::{TruePlant, record};
     use crate::signal::InputSignal;
+    use lookout_design::Design;
 
     const SEED: u64 = 11;
 
@@ -362,6 +363,68 @@ mod tests {
             if design.gate.is_some() {
                 assert!(gated > 0, "{model}: the gate branch was not exercised");
             }
+        }
+    }
+
+    fn chain40() -> (Design, crate::plant::Trajectory) {
+        let path = std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+            .join("../lookout-cli/tests/fixtures/sizes/chain40_5_inputs_6_outputs.toml");
+        let design = lookout_design::design_file(&path).unwrap();
+        let mut opts = config();
+        opts.disturbance = None;
+        opts.steps = 300;
+        let plant = TruePlant::of(&design, opts.mismatch, SEED).unwrap();
+        (
+            design.clone(),
+            record(&design, &plant, &opts, SEED).unwrap().0,
+        )
+    }
+
+    /// At size: the 40-state, 5-input, 6-output chain runs in class
+    /// (64, 8, 8), its tables built on a thread of their own, and gives the
+    /// same estimates bit for bit as at (40, 5, 6).
+    #[test]
+    fn forty_states_padded_to_their_class_equal_unpadded() {
+        let (design, traj) = chain40();
+        assert_eq!(crate::sizes::check_sizes(&design).unwrap(), (64, 8, 8));
+        let x0 = vec![0.1; 40];
+        for format in [Format::F64, Format::F32] {
+            let at = |t: Box<dyn TableSet>| over(&vec![(format, t)], &traj, &x0).remove(0);
+            let exact = at(build_sized::<40, 5, 6>(&design, format).unwrap());
+            let padded = at(crate::sizes::build(&design, format).unwrap());
+            assert!(traj.dropped > 0 && exact.estimate.len() == 301 * 40);
+            for (p, e) in padded.estimate.iter().zip(&exact.estimate) {
+                assert!(p.to_bits() == e.to_bits() || (*p == 0.0 && *e == 0.0));
+            }
+        }
+    }
+
+    /// Not a check: prints the cost of a step padded to the class against
+    /// one at the model's own sizes (`cargo test --release -p lookout-sim
+    /// step_cost -- --ignored --nocapture`).
+    #[test]
+    #[ignore = "a measurement, not a check"]
+    fn step_cost_padded_against_unpadded() {
+        let (design, traj) = chain40();
+        let x0 = vec![0.1; 40];
+        for format in [Format::F64, Format::F32] {
+            let time = |t: Box<dyn TableSet>| {
+                let built = vec![(format, t)];
+                let start = std::time::Instant::now();
+                for _ in 0..20 {
+                    over(&built, &traj, &x0);
+                }
+                start.elapsed().as_secs_f64() / (20.0 * 300.0)
+            };
+            let exact = time(build_sized::<40, 5, 6>(&design, format).unwrap());
+            let padded = time(crate::sizes::build(&design, format).unwrap());
+            println!(
+                "{}: {:.2} µs a step unpadded, {:.2} µs padded to (64, 8, 8): ratio {:.2}",
+                format.name(),
+                exact * 1e6,
+                padded * 1e6,
+                padded / exact
+            );
         }
     }
 }
