@@ -124,21 +124,8 @@ pub fn read(path: &Path, design: &Design, ignore_others: bool) -> Result<Traject
         )));
     }
     let lay = layout(&name, &header, design, ignore_others)?;
-    let (m, p) = (design.m(), design.p());
-    let mut tr = Trajectory {
-        steps: 0,
-        n: design.n(),
-        m,
-        p,
-        truth: Vec::new(),
-        u: Vec::new(),
-        y: Vec::new(),
-        valid: Vec::new(),
-        dropped: 0,
-        outliers: 0,
-        // Unknown in a log: no reading is marked.
-        outlier: Vec::new(),
-    };
+    // No truth in a log, and no reading marked as an outlier (unknown).
+    let mut tr = Trajectory::empty(design, 0);
     let mut last_time: Option<(u64, f64)> = None;
     let mut pending_blank: Option<u64> = None;
     for record in reader.records() {
