@@ -73,15 +73,29 @@ pub fn check_sizes(design: &Design) -> Result<(usize, usize, usize), SimError> {
     }
 }
 
-/// Tables up to this size (bytes, in f64) are built on the caller's stack.
-const ON_CALLER_STACK: usize = 64 << 10;
+/// How many copies of its tables the stack of a table builder holds: an
+/// unoptimised build moves the plain arrays by value several times (16 was
+/// the least that built every class in the tests below; twice that).
+const STACK_COPIES: usize = 32;
+
+/// Tables up to this size (bytes, in f64) are built on the caller's stack
+/// (at most 16 copies, 256 KiB, fit any thread's stack).
+const ON_CALLER_STACK: usize = 16 << 10;
 
 /// `format`'s tables of `design`, padded to its class. Tables of a large
 /// class are built on a thread of its own whose stack holds a few copies of
 /// them (the runtime's tables are plain arrays, built by value), then live
 /// on the heap.
 pub fn build(design: &Design, format: Format) -> Result<Box<dyn TableSet>, SimError> {
-    let class = check_sizes(design)?;
+    build_in(check_sizes(design)?, design, format)
+}
+
+/// `format`'s tables of `design` in size class `class`.
+fn build_in(
+    class: (usize, usize, usize),
+    design: &Design,
+    format: Format,
+) -> Result<Box<dyn TableSet>, SimError> {
     let (n, m, p) = class;
     // f64 entries of A, B, C, D, the gain and the gate's S⁻¹.
     let bytes = 8 * (n * n + n * m + 2 * n * p + p * m + p * p);
@@ -91,7 +105,7 @@ pub fn build(design: &Design, format: Format) -> Result<Box<dyn TableSet>, SimEr
     std::thread::scope(|scope| {
         std::thread::Builder::new()
             .name("lookout-sim tables".into())
-            .stack_size(8 * bytes + (4 << 20))
+            .stack_size(STACK_COPIES * bytes + (4 << 20))
             .spawn_scoped(scope, || dispatch(class, design, format))
             .map_err(|e| SimError::Failure(format!("cannot start the table builder: {e}")))?
             .join()
@@ -121,4 +135,35 @@ fn dispatch(
     )(48, 32, 32)(64, 32, 32)(96, 32, 32)(128, 32, 32)(
         192, 32, 32
     )(256, 32, 32)(384, 32, 32)(512, 32, 32)(512, 512, 32))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// Every size the design accepts (n ≤ 500, `model::MAX_STATES`) with at
+    /// most 32 outputs and 512 inputs has a class.
+    #[test]
+    fn every_designable_size_has_a_class() {
+        assert_eq!(lookout_design::model::MAX_STATES, 500);
+        for n in 1..=500 {
+            for (m, p) in [(0, 1), (4, 4), (5, 6), (9, 32), (33, 1), (512, 32)] {
+                let (cn, cm, cp) = class_of(n, m, p).unwrap();
+                assert!(n <= cn && m <= cm && p <= cp);
+            }
+        }
+        assert!(class_of(1, 1, 33).is_none() && class_of(1, 513, 1).is_none());
+    }
+
+    /// The list of classes and the dispatch's list are the same: the demo
+    /// (2 states, 1 input, 1 output) builds in every class.
+    #[test]
+    fn every_class_dispatches() {
+        let path =
+            std::path::Path::new(env!("CARGO_MANIFEST_DIR")).join("../../examples/conveyor.toml");
+        let design = lookout_design::design_file(&path).unwrap();
+        for class in CLASSES {
+            assert!(build_in(class, &design, Format::F32).is_ok(), "{class:?}");
+        }
+    }
 }
