@@ -306,7 +306,7 @@ pub fn write_csv(path: &Path, design: &Design, r: &RunResult) -> Result<(), CliE
     }
     lookout_design::emit::write_file(path, s.as_bytes())
         .map(|_| ())
-        .map_err(|e| CliError::Failure(e.to_string()))
+        .map_err(CliError::from)
 }
 
 /// The sweep report.
