@@ -134,7 +134,7 @@ fn emit_is_byte_identical_run_to_run_and_records_its_origin() {
     assert_eq!(ta, tb);
     let text = String::from_utf8(ta).unwrap();
     assert!(text.contains(concat!("lookout-design ", env!("CARGO_PKG_VERSION"))));
-    assert!(text.contains("model file hash (FNV-1a 64): "));
+    assert!(text.contains("model file hash (SHA-256): "));
     assert!(text.contains("pub static PREDICTOR: lookout::PredictorTables<f32, N, M, P>"));
     let f64_text = String::from_utf8(lookout(&["emit", DEMO, "--scalar", "f64"]).stdout).unwrap();
     assert!(f64_text.contains("lookout::FusedTables<f64, N, M, P>"));

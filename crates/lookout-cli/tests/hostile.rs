@@ -155,37 +155,26 @@ fn emit_to(target: &Path) -> Output {
     lookout(&["emit", DEMO, "-o", target.to_str().unwrap()])
 }
 
-/// Exit code 1 (the output cannot be written), one line naming `needle`.
-fn not_written(out: &Output, needle: &str) {
-    let err = String::from_utf8_lossy(&out.stderr);
-    assert_eq!(out.status.code(), Some(1), "{err}");
-    let last = err.lines().last().unwrap_or("");
-    assert!(
-        last.starts_with("lookout: error: ") && last.contains(needle),
-        "{err}"
-    );
-}
-
 #[test]
 fn emit_refuses_directories_and_dangling_links_and_leaves_nothing_behind() {
     let dir = scratch_dir("emit-non-regular");
     let sub = dir.join("sub");
     std::fs::create_dir(&sub).unwrap();
-    not_written(&emit_to(&sub), "directory");
+    refused(&emit_to(&sub), "directory");
     #[cfg(unix)]
     {
         let dangling = dir.join("dangling.rs");
         std::os::unix::fs::symlink(dir.join("nowhere"), &dangling).unwrap();
-        not_written(&emit_to(&dangling), "symbolic link");
+        refused(&emit_to(&dangling), "symbolic link");
         if Path::new("/dev/null").exists() {
             // Never replaced by a regular file (this is how a test machine
             // once lost /dev/full when run as root).
-            not_written(&emit_to(Path::new("/dev/null")), "device");
+            refused(&emit_to(Path::new("/dev/null")), "device");
         }
         let fifo = dir.join("fifo.rs");
         let made = Command::new("mkfifo").arg(&fifo).status();
         if made.is_ok_and(|s| s.success()) {
-            not_written(&emit_to(&fifo), "FIFO");
+            refused(&emit_to(&fifo), "FIFO");
         }
     }
     let mut left = entries(&dir);
@@ -239,7 +228,7 @@ fn csv_onto_a_directory_is_refused_and_writes_nothing() {
         "--csv",
         dir.to_str().unwrap(),
     ]);
-    not_written(&out, "directory");
+    refused(&out, "directory");
     assert!(entries(&dir).is_empty());
 }
 

@@ -625,3 +625,13 @@ fn q31_band_holds_exactly_the_designs_deviation() {
         );
     }
 }
+
+/// Issue 15: the sweep's progress bar (indicatif) draws only on a terminal;
+/// with stderr piped, as in CI logs, a short sweep writes nothing there.
+#[test]
+fn sweep_progress_stays_off_a_piped_stderr() {
+    let out = lookout(&["simulate", DEMO_KALMAN, "--sweep", "8", "--steps", "200"]);
+    assert!(out.status.success());
+    assert_eq!(String::from_utf8_lossy(&out.stderr), "");
+    assert!(String::from_utf8_lossy(&out.stdout).contains("sweep of 8 runs"));
+}

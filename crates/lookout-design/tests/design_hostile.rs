@@ -64,3 +64,33 @@ fn subnormal_input_table_is_warned_about() {
         d.warnings
     );
 }
+
+/// A 2-state discrete plant with input column `b` (two entries) and the
+/// output on the first state.
+fn two_state_model(b: [&str; 2]) -> String {
+    format!(
+        "name = \"pair\"\nsample_period = 0.001\n\n[plant]\ndomain = \"discrete\"\na = [[0.9, 0.1], [0.0, 0.8]]\nb = [[{}], [{}]]\nc = [[1.0, 0.0]]\n\n[observer]\nform = \"predictor\"\ndiscrete_poles = [0.5, 0.6]\n",
+        b[0], b[1]
+    )
+}
+
+fn f32_warning_on_bd(text: &str) -> bool {
+    let d = design_text(text, "pair.toml").unwrap();
+    d.warnings
+        .iter()
+        .any(|w| w.to_string().contains("Bd has the entry"))
+}
+
+#[test]
+fn entry_flushed_in_f32_is_warned_about_only_when_it_matters_in_its_row() {
+    // Bd = b for a discrete plant. 1e-40 is subnormal in f32 (smallest
+    // normal 2⁻¹²⁶ ≈ 1.18e-38, IEEE 754). Alone in its row it is that
+    // row's whole input term: warned. Beside 1.0 in the same row (a second
+    // input) it is below f32's unit roundoff 2⁻²⁴ times the row's largest
+    // entry, so losing it costs less than rounding that entry: not warned.
+    assert!(f32_warning_on_bd(&two_state_model(["1.0", "1e-40"])));
+    let side_by_side = two_state_model(["1.0", "0.5"])
+        .replace("b = [[1.0], [0.5]]", "b = [[1.0, 1e-40], [0.5, 0.0]]");
+    assert!(side_by_side.contains("1e-40"));
+    assert!(!f32_warning_on_bd(&side_by_side), "{side_by_side}");
+}

@@ -379,5 +379,5 @@ pub fn write_csv(path: &Path, design: &Design, r: &Replay) -> Result<(), CliErro
     }
     lookout_design::emit::write_file(path, s.as_bytes())
         .map(|_| ())
-        .map_err(|e| CliError::Failure(e.to_string()))
+        .map_err(CliError::from)
 }

@@ -365,7 +365,7 @@ pub fn run_with_csv(
     });
     match (outcome, written) {
         (Some(Err(e)), _) => Err(e.into()),
-        (_, Err(e)) => Err(CliError::Failure(e.to_string())),
+        (_, Err(e)) => Err(CliError::from(e)),
         (Some(Ok(r)), Ok(_)) => Ok(r),
         (None, Ok(_)) => Err(CliError::Failure(format!(
             "{}: the run was not made",

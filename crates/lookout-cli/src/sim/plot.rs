@@ -168,7 +168,7 @@ pub fn render(
     };
     lookout_design::emit::write_file(path, &bytes)
         .map(|_| ())
-        .map_err(|e| CliError::Failure(e.to_string()))
+        .map_err(CliError::from)
 }
 
 fn draw<DB: DrawingBackend>(

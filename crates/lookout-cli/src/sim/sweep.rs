@@ -5,11 +5,9 @@ use super::runtime::Format;
 use super::verdict::Verdict;
 use super::{RunResult, run_once};
 use crate::error::CliError;
+use indicatif::{ProgressBar, ProgressDrawTarget, ProgressStyle};
 use lookout_design::Design;
 use rayon::prelude::*;
-use std::io::IsTerminal as _;
-use std::sync::Mutex;
-use std::sync::atomic::{AtomicUsize, Ordering};
 
 /// How many worst cases are kept per format.
 const WORST: usize = 3;
@@ -183,39 +181,27 @@ fn merge(mut a: Vec<FormatSummary>, b: Vec<FormatSummary>) -> Vec<FormatSummary>
     a
 }
 
-/// The progress bar on stderr, drawn only when stderr is a terminal.
+/// The progress bar on stderr (indicatif), drawn only when stderr is a
+/// terminal whose `TERM` is not `dumb`: pipes, logs and tests see nothing.
 struct Progress {
-    runs: usize,
-    show: bool,
-    done: AtomicUsize,
-    shown: Mutex<usize>,
+    bar: ProgressBar,
 }
 
 impl Progress {
     fn new(runs: usize) -> Self {
-        Self {
-            runs,
-            show: std::io::stderr().is_terminal(),
-            done: AtomicUsize::new(0),
-            shown: Mutex::new(0),
+        let bar = ProgressBar::with_draw_target(Some(runs as u64), ProgressDrawTarget::stderr());
+        if let Ok(style) = ProgressStyle::with_template("sweep [{bar:30}] {pos}/{len}, {eta} left")
+        {
+            bar.set_style(style.progress_chars("#  "));
         }
+        Self { bar }
     }
 
+    /// One run done; after the last the bar stays on screen, complete.
     fn tick(&self) {
-        let runs = self.runs;
-        let k = self.done.fetch_add(1, Ordering::Relaxed) + 1;
-        if self.show && (k * 50 / runs != (k - 1) * 50 / runs || k == runs) {
-            // Threads finish out of order: only a count above the one
-            // shown is drawn, so the bar never steps back after 100 %.
-            let mut last = self.shown.lock().unwrap_or_else(|p| p.into_inner());
-            if k > *last {
-                *last = k;
-                let bar = "#".repeat(k * 30 / runs);
-                eprint!("\rsweep [{bar:<30}] {k}/{runs}");
-                if k == runs {
-                    eprintln!();
-                }
-            }
+        self.bar.inc(1);
+        if Some(self.bar.position()) >= self.bar.length() {
+            self.bar.finish();
         }
     }
 }

@@ -31,6 +31,15 @@ pub enum DesignError {
         /// What is wrong and what to do instead.
         message: String,
     },
+    /// The output path names something that must not be replaced (a
+    /// directory, a device, a link that does not end at a regular file):
+    /// the user's choice of path is at fault, so this is an input error.
+    RefusedOutput {
+        /// The path given.
+        path: String,
+        /// What it is and why it is refused.
+        message: String,
+    },
     /// The output could not be written.
     Io {
         /// The file concerned.
@@ -42,8 +51,9 @@ pub enum DesignError {
 
 impl DesignError {
     /// Whether the error lies in the user's input (the model file: missing,
-    /// unreadable, wrong, or asking for a design that cannot be made), as
-    /// opposed to writing the output. The CLI maps input errors to exit code 2.
+    /// unreadable, wrong, or asking for a design that cannot be made; or an
+    /// output path that must not be replaced), as opposed to failing to
+    /// write the output. The CLI maps input errors to exit code 2.
     pub fn is_input_error(&self) -> bool {
         !matches!(self, DesignError::Io { .. })
     }
@@ -63,7 +73,9 @@ impl fmt::Display for DesignError {
                 key,
                 message,
             } => write!(f, "{origin}: {key}: {message}"),
-            DesignError::Io { path, message } => write!(f, "{path}: {message}"),
+            DesignError::Io { path, message } | DesignError::RefusedOutput { path, message } => {
+                write!(f, "{path}: {message}")
+            }
         }
     }
 }

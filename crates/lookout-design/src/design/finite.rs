@@ -130,6 +130,13 @@ impl Scan {
 /// subnormal in f64, or subnormal or flushed to zero in f32: such a table
 /// loses relative precision (or the entry entirely) and is usually the sign
 /// of a sample period or unit far too small (T = 5e-324 makes Bd subnormal).
+///
+/// An entry smaller than the unit roundoff times the largest entry of its
+/// row is left out: losing it changes that row's products by less than the
+/// rounding of the row's largest term already does (with states of
+/// comparable magnitude), so it is no sign of a wrong model. The far corners
+/// of a sampled chain (a 30-mass heat rod has Ad entries of 1e-40 beside
+/// diagonals near 1) are that case.
 pub(super) fn subnormal_warnings(d: &Design) -> Vec<super::Warning> {
     let mut tables: Vec<(&str, &DMatrix<f64>)> = vec![
         ("Ad", &d.ad),
@@ -145,8 +152,8 @@ pub(super) fn subnormal_warnings(d: &Design) -> Vec<super::Warning> {
     }
     let mut out = Vec::new();
     for (name, m) in tables {
-        let tiny = |limit: f64| m.iter().copied().find(|v| *v != 0.0 && v.abs() < limit);
-        if let Some(v) = tiny(f64::MIN_POSITIVE) {
+        let tiny = |limit: f64, unit_roundoff: f64| lost_entry(m, limit, unit_roundoff);
+        if let Some(v) = tiny(f64::MIN_POSITIVE, f64::EPSILON / 2.0) {
             out.push(super::Warning::new(
                 "tables",
                 format!(
@@ -154,7 +161,7 @@ pub(super) fn subnormal_warnings(d: &Design) -> Vec<super::Warning> {
                     f64::MIN_POSITIVE
                 ),
             ));
-        } else if let Some(v) = tiny(f64::from(f32::MIN_POSITIVE)) {
+        } else if let Some(v) = tiny(f64::from(f32::MIN_POSITIVE), f64::from(f32::EPSILON) / 2.0) {
             out.push(super::Warning::new(
                 "tables",
                 format!(
@@ -165,4 +172,16 @@ pub(super) fn subnormal_warnings(d: &Design) -> Vec<super::Warning> {
         }
     }
     out
+}
+
+/// The first non-zero entry of `m` below `limit` in magnitude that is not
+/// negligible in its row (at least `unit_roundoff` times the row's largest
+/// magnitude).
+fn lost_entry(m: &DMatrix<f64>, limit: f64, unit_roundoff: f64) -> Option<f64> {
+    m.row_iter().find_map(|row| {
+        let largest = row.iter().fold(0.0_f64, |a, v| a.max(v.abs()));
+        row.iter()
+            .copied()
+            .find(|v| *v != 0.0 && v.abs() < limit && v.abs() >= unit_roundoff * largest)
+    })
 }

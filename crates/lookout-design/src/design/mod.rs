@@ -46,8 +46,9 @@ pub struct Design {
     pub model: Model,
     /// The model file name used in messages.
     pub origin: String,
-    /// FNV-1a 64-bit hash of the model file's bytes, as 16 hex digits (an
-    /// identifier for generated code, not a cryptographic digest).
+    /// SHA-256 of the model file's bytes (FIPS 180-4), as 64 lower-case hex
+    /// digits, the form `sha256sum` prints: it identifies the model a report
+    /// or a generated table came from (see [`model_hash`]).
     pub model_hash: String,
     /// Sampled plant (with its disturbance states, if any: see [`Design::state_names`]).
     pub ad: DMatrix<f64>,
@@ -230,10 +231,10 @@ pub fn design_file(path: &Path) -> Result<Design, DesignError> {
 /// Designs the observer of the model in `text`; `origin` names it in messages.
 pub fn design_text(text: &str, origin: &str) -> Result<Design, DesignError> {
     let model = Model::from_toml_str(text, origin)?;
-    design_model(model, origin, fnv1a64(text.as_bytes()))
+    design_model(model, origin, model_hash(text.as_bytes()))
 }
 
-fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignError> {
+fn design_model(model: Model, origin: &str, hash: String) -> Result<Design, DesignError> {
     let fail = |stage: &'static str| {
         move |source| DesignError::Numerics {
             origin: origin.to_string(),
@@ -318,7 +319,7 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
 
     let mut design = Design {
         origin: origin.to_string(),
-        model_hash: format!("{hash:016x}"),
+        model_hash: hash,
         ad,
         bd,
         cd,
@@ -405,9 +406,15 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
     Ok(design)
 }
 
-/// FNV-1a, 64 bits (Fowler–Noll–Vo; offset basis and prime as published).
-pub(crate) fn fnv1a64(bytes: &[u8]) -> u64 {
-    bytes.iter().fold(0xcbf2_9ce4_8422_2325, |h, &b| {
-        (h ^ u64::from(b)).wrapping_mul(0x0000_0100_0000_01b3)
-    })
+/// The hash [`Design::model_hash`] holds: SHA-256 (NIST FIPS 180-4, by the
+/// `sha2` crate) of `bytes`, as 64 lower-case hex digits.
+pub fn model_hash(bytes: &[u8]) -> String {
+    use sha2::Digest as _;
+    use std::fmt::Write as _;
+    sha2::Sha256::digest(bytes)
+        .iter()
+        .fold(String::with_capacity(64), |mut hex, b| {
+            let _ = write!(hex, "{b:02x}");
+            hex
+        })
 }

@@ -90,7 +90,7 @@ fn resolve(path: &Path) -> Result<Target, DesignError> {
         });
     }
     if !meta.file_type().is_symlink() {
-        return Err(io_error(
+        return Err(refused(
             path,
             &format!(
                 "is {}, not a regular file; refusing to replace it",
@@ -99,14 +99,14 @@ fn resolve(path: &Path) -> Result<Target, DesignError> {
         ));
     }
     let file = fs::canonicalize(path).map_err(|e| {
-        io_error(
+        refused(
             path,
             &format!("is a symbolic link that does not resolve ({e}); refusing to replace it"),
         )
     })?;
     let meta = fs::metadata(&file).map_err(|e| io_error(path, &e.to_string()))?;
     if !meta.is_file() {
-        return Err(io_error(
+        return Err(refused(
             path,
             &format!(
                 "is a symbolic link to {} ({}), not to a regular file; refusing to replace it",
@@ -181,6 +181,13 @@ fn fill(
         file.set_permissions(p)?;
     }
     file.sync_all()
+}
+
+fn refused(path: &Path, message: &str) -> DesignError {
+    DesignError::RefusedOutput {
+        path: path.display().to_string(),
+        message: message.to_string(),
+    }
 }
 
 fn io_error(path: &Path, message: &str) -> DesignError {

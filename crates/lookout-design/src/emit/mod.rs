@@ -291,7 +291,7 @@ fn header(d: &Design, s: &mut String) {
         d.model.name
     );
     let _ = writeln!(s, "// sample period: {:?} s", d.model.sample_period);
-    let _ = writeln!(s, "// model file hash (FNV-1a 64): {}", d.model_hash);
+    let _ = writeln!(s, "// model file hash (SHA-256): {}", d.model_hash);
     let _ = writeln!(s, "// error poles, z (and s = ln(z)/T in rad/s):");
     for (z, sp) in d.error_poles.iter().zip(d.error_poles_s()) {
         let s_text = sp.map_or_else(
