@@ -23,16 +23,16 @@
 //! one row of the plant and per format a few n-vectors of running sums, so
 //! its memory does not grow with its steps (`tests/memory.rs` checks the
 //! peak heap at 1 000 and 100 000 steps; `/usr/bin/time -v lookout simulate
-//! examples/conveyor.toml --steps N`, release build: 7.1, 7.0 and 7.0 MB
-//! maximum resident at N = 1 000, 100 000 and 1 000 000, against 6.2, 16.5
+//! examples/conveyor.toml --steps N`, release build: 7.1, 7.2 and 7.3 MB
+//! maximum resident at N = 1 000, 100 000 and 1 000 000, against 6.3, 16.5
 //! and 110 MB when the series were stored). The settling rule needs the
 //! band, which needs the whole run, and the last step outside it; it has no
 //! exact one-pass form in constant memory, so the run is made twice from
-//! its seed ([`metrics`] says what each pass keeps). The second pass costs
-//! less than the stored series did: 1 000 000 steps of the demo take 0.80 s
-//! against 0.63 s before, the Kalman demo (NIS at every step) 1.44 s
-//! against 0.86 s, a sweep of 1 000 runs 2.1–2.7 s against 1.9–2.2 s (three
-//! runs each, shared 2-core machine under load).
+//! its seed ([`metrics`] says what each pass keeps). Time, same commands,
+//! two runs each on a shared 2-core machine: 1 000 000 steps of the demo
+//! 1.05–1.26 s against 0.69–0.72 s with stored series, the Kalman demo (NIS
+//! summed at every step) 1.45–1.59 s against 0.84–1.04 s, `--sweep 1000`
+//! 2.62–2.88 s against 1.67–2.38 s.
 //!
 //! # Sizes
 //!
