@@ -104,7 +104,7 @@ pub trait Sink {
     /// Before the first row: the formats that run, in the order of the
     /// estimates given to [`Sink::row`].
     fn formats(&mut self, formats: &[Format]) -> Result<(), SimError>;
-    /// Row `k` (0..=steps) and every format's estimate x̂[k], n values per
+    /// Row `k` (0..=steps) and every format's estimate x̂ at step k, n values per
     /// format.
     fn row(&mut self, k: usize, row: &Row, estimates: &[f64]) -> Result<(), SimError>;
     /// Step `k` of the second pass was measured: for progress or

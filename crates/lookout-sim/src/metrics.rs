@@ -384,9 +384,9 @@ fn run_peak_deviation(
 /// Bound on |x̂ − x̂_exact| of `run` per state, x̂_exact the exact
 /// observer's estimate: the design's proven deviation for this form and
 /// format (`format_accuracy`, see [`predicted::design_deviation`]) when the
-/// model has `[fixed_point]`, else [`run_peak_deviation`]. Infinite where
-/// no bound exists (the analysis refuses the combination: its stored
-/// error dynamics do not decay or its tables do not fit).
+/// model has `[fixed_point]`, else the float analysis at this run's peaks.
+/// Infinite where no bound exists (the analysis refuses the combination:
+/// its stored error dynamics do not decay or its tables do not fit).
 pub fn deviation(
     design: &Design,
     signals: &Peaks,
