@@ -6,7 +6,7 @@
 use lookout::{
     FixedFusedObserver, FixedFusedTables, FusedTables, Matrix, Observer as _, Q31, Scales,
 };
-use lookout_design::fixed_point::{self, FloatTables, bounds};
+use lookout_design::fixed_point::{self, FloatTables, QuantiseTables as _, bounds};
 use lookout_design::model::{FixedFormat, FixedPointSpec, Form};
 use nalgebra::{DMatrix, DVector};
 use proptest::prelude::*;

@@ -1,5 +1,5 @@
 //! Q15 tables for the firmware, converted on the host from a design's f64
-//! tables with the runtime's `from_float`, and written as Rust source. A
+//! tables with lookout-design's `QuantiseTables::from_float`, and written as Rust source. A
 //! stand-in: lookout-design emits the one format a model's `[fixed_point]`
 //! section names (Q31 for the demo models), and the firmware also runs Q15.
 //!
@@ -11,6 +11,7 @@ use lookout::{
     PredictorTables, Q15, Scales,
 };
 use lookout_design::Design;
+use lookout_design::fixed_point::QuantiseTables as _;
 use lookout_design::model::Form;
 use nalgebra::DMatrix;
 use std::fmt::Write as _;

@@ -6,19 +6,24 @@ use crate::fixed_point::{FixedDesign, QuantisedTable, format_name};
 use crate::model::Form;
 use std::fmt::Write as _;
 
-fn ints(values: &[i8]) -> String {
+pub(super) fn ints<T: ToString>(values: &[T]) -> String {
     let items: Vec<String> = values.iter().map(ToString::to_string).collect();
     format!("[{}]", items.join(", "))
 }
 
 fn qmatrix(ty: &str, t: &QuantisedTable) -> String {
-    let rows: Vec<String> =
-        t.q.row_iter()
-            .map(|r| {
-                let items: Vec<String> = r.iter().map(|v| format!("lookout::{ty}({v})")).collect();
-                format!("[{}]", items.join(", "))
-            })
-            .collect();
+    q_rows(ty, &t.q)
+}
+
+/// `lookout::Matrix::from_rows([[lookout::Q31(..), ..], ..])`.
+pub(super) fn q_rows(ty: &str, q: &nalgebra::DMatrix<i64>) -> String {
+    let rows: Vec<String> = q
+        .row_iter()
+        .map(|r| {
+            let items: Vec<String> = r.iter().map(|v| format!("lookout::{ty}({v})")).collect();
+            format!("[{}]", items.join(", "))
+        })
+        .collect();
     format!("lookout::Matrix::from_rows([{}])", rows.join(", "))
 }
 

@@ -37,20 +37,26 @@
 pub mod accuracy;
 pub mod bounds;
 pub mod deviation;
+pub mod gate;
+mod handoff;
 mod quantise;
 pub mod scales;
 
 pub use accuracy::Accuracy;
 pub use bounds::{BoundError, PeakBound};
 pub use deviation::{Deviation, FormKind, NumberKind};
-pub use quantise::QuantisedTable;
+pub use handoff::QuantiseTables;
+pub use quantise::{
+    ConvertError, QuantisedTable, dequantise_real, label, quantise_real, row_exponent,
+};
 pub use scales::SignalBounds;
 
 use crate::model::{FixedFormat, FixedPointSpec, Form, ScaleSource};
 use crate::numerics;
 use deviation::Stored;
+use lookout::TableName;
 use nalgebra::{Complex, DMatrix};
-use quantise::{Block, RowTooLarge, stacked};
+use quantise::{Block, stacked};
 
 /// The fixed-point part of a design.
 #[derive(Debug, Clone, PartialEq)]
@@ -169,27 +175,34 @@ fn quantise_tables(
     format: FixedFormat,
     (sx, su, sy): (&[i8], &[i8], &[i8]),
 ) -> Result<TablePair, FixedError> {
-    let fail = |e: RowTooLarge| FixedError {
+    let fail = |e: ConvertError| FixedError {
         key: "fixed_point",
-        message: format!(
-            "table {} row {} cannot be stored in {}: normalised row sum {:.4e}",
-            e.table,
-            e.row,
-            format_name(format),
-            e.sum
-        ),
+        message: match e {
+            ConvertError::RowTooLarge { table, row, sum } => format!(
+                "table {} row {row} cannot be stored in {}: normalised row sum {sum:.4e}",
+                quantise::label(table),
+                format_name(format),
+            ),
+            other => format!("{} tables: {other}", format_name(format)),
+        },
     };
     let quantise = |blocks: &[Block<'_>], out: &[i8]| match format {
         FixedFormat::Q15 => stacked::<lookout::Q15>(blocks, out),
         FixedFormat::Q31 => stacked::<lookout::Q31>(blocks, out),
     };
-    let output_map =
-        quantise(&[Block::new("c", t.cd, sx), Block::new("d", t.dd, su)], sy).map_err(fail)?;
+    let output_map = quantise(
+        &[
+            Block::new(TableName::C, t.cd, sx),
+            Block::new(TableName::D, t.dd, su),
+        ],
+        sy,
+    )
+    .map_err(fail)?;
     let mut fused_tables = quantise(
         &[
-            Block::new("f", t.f, sx),
-            Block::new("g", t.g, su),
-            Block::new("h", t.h, sy),
+            Block::new(TableName::F, t.f, sx),
+            Block::new(TableName::G, t.g, su),
+            Block::new(TableName::H, t.h, sy),
         ],
         sx,
     )
@@ -199,17 +212,23 @@ fn quantise_tables(
         (_, None) => Vec::new(),
         (Form::Predictor, Some(l)) => quantise(
             &[
-                Block::new("a", t.ad, sx),
-                Block::new("b", t.bd, su),
-                Block::new("l", l, sy),
+                Block::new(TableName::A, t.ad, sx),
+                Block::new(TableName::B, t.bd, su),
+                Block::new(TableName::L, l, sy),
             ],
             sx,
         )
         .map_err(fail)?,
         (Form::Current, Some(k)) => {
-            let mut tables = quantise(&[Block::new("a", t.ad, sx), Block::new("b", t.bd, su)], sx)
-                .map_err(fail)?;
-            tables.extend(quantise(&[Block::new("k", k, sy)], sx).map_err(fail)?);
+            let mut tables = quantise(
+                &[
+                    Block::new(TableName::A, t.ad, sx),
+                    Block::new(TableName::B, t.bd, su),
+                ],
+                sx,
+            )
+            .map_err(fail)?;
+            tables.extend(quantise(&[Block::new(TableName::K, k, sy)], sx).map_err(fail)?);
             tables
         }
     };
