@@ -349,7 +349,7 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
     if let Some(spec) = &design.model.fixed_point {
         let state_names = design.state_names();
         let tables = crate::fixed_point::FloatTables::of(&design, &state_names);
-        let fixed =
+        let mut fixed =
             crate::fixed_point::design(&tables, spec).map_err(|e| DesignError::Unsupported {
                 origin: origin.to_string(),
                 key: e.key,
@@ -363,27 +363,16 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
         );
         if let Some(g) = &design.gate {
             let ty = crate::fixed_point::format_name(fixed.format);
-            if design.p() <= crate::emit::MAX_FIXED_GATE_OUTPUTS
-                && crate::emit::gate::fixed(ty, g, &fixed.output_exponents).is_none()
-            {
+            if let Err(e) = fixed.attach_gate(&g.into()) {
                 return Err(DesignError::Unsupported {
                     origin: origin.to_string(),
                     key: "observer.kalman.gate_probability",
                     message: format!(
-                        "the innovation gate (limit {:e} on rᵀS⁻¹r) cannot be stored in {ty} at the output scales; choose a gate probability (or threshold) whose limit is representable, e.g. 0.99–0.9999, or remove the gate",
+                        "the innovation gate (limit {:e} on rᵀS⁻¹r) cannot be stored in {ty} at the output scales ({e}); choose a gate probability (or threshold) whose limit is representable, e.g. 0.99–0.9999, or remove the gate",
                         g.limit
                     ),
                 });
             }
-        }
-        if design.gate.is_some() && design.p() > crate::emit::MAX_FIXED_GATE_OUTPUTS {
-            early_warnings.push(Warning::new(
-                "observer.gate_probability",
-                format!(
-                    "the fixed-point tables are emitted without the gate (generated for at most {} outputs)",
-                    crate::emit::MAX_FIXED_GATE_OUTPUTS
-                ),
-            ));
         }
         design.fixed_point = Some(fixed);
     }

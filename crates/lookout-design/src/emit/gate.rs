@@ -3,7 +3,7 @@
 
 use super::literal::{self, Scalar};
 use crate::design::GateDesign;
-use crate::fixed_point::gate::{FloatGate, QuantisedGate, quantise};
+use crate::fixed_point::gate::QuantisedGate;
 
 /// `lookout::Recovery { limits: [...], stages: K }` from the used limit
 /// pairs (unused entries are `zero`).
@@ -38,7 +38,7 @@ pub(super) fn float(scalar: Scalar, g: &GateDesign) -> Option<String> {
 }
 
 /// The quantised gate as a `lookout::FixedGate` literal in `ty`.
-fn fixed_literal(ty: &str, q: &QuantisedGate) -> String {
+pub(super) fn fixed_literal(ty: &str, q: &QuantisedGate) -> String {
     let pairs: Vec<[String; 2]> = q
         .recovery
         .iter()
@@ -60,24 +60,4 @@ fn fixed_literal(ty: &str, q: &QuantisedGate) -> String {
         q.channel_limit,
         recovery(&pairs, "0", q.per_miss),
     )
-}
-
-/// Largest output count the fixed-point gate is emitted for.
-pub const MAX_FIXED_GATE_OUTPUTS: usize = 8;
-
-/// The fixed-point gate literal for `ty` ("Q15" or "Q31"), built by the
-/// design's gate quantiser ([`crate::fixed_point::gate`]) at the outputs'
-/// scales; `None` when the gate cannot be built (more than
-/// [`MAX_FIXED_GATE_OUTPUTS`] outputs, or a value outside the format).
-pub(crate) fn fixed(ty: &str, g: &GateDesign, output: &[i8]) -> Option<String> {
-    if output.len() > MAX_FIXED_GATE_OUTPUTS {
-        return None;
-    }
-    let float = FloatGate::from(g);
-    let q = match ty {
-        "Q31" => quantise::<lookout::Q31>(&float, output),
-        "Q15" => quantise::<lookout::Q15>(&float, output),
-        _ => return None,
-    };
-    Some(fixed_literal(ty, &q.ok()?))
 }

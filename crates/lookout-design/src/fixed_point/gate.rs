@@ -11,6 +11,7 @@
 
 use super::quantise::{Block, ConvertError, stacked};
 use crate::design::GateDesign;
+use crate::model::FixedFormat;
 use lookout::{Fixed, TableName};
 use nalgebra::DMatrix;
 
@@ -171,4 +172,16 @@ pub fn quantise<Q: Fixed>(g: &FloatGate, output: &[i8]) -> Result<QuantisedGate,
         recovery,
         per_miss: g.per_miss,
     })
+}
+
+/// [`quantise`] in `format`.
+pub fn quantise_in(
+    format: FixedFormat,
+    g: &FloatGate,
+    output: &[i8],
+) -> Result<QuantisedGate, ConvertError> {
+    match format {
+        FixedFormat::Q15 => quantise::<lookout::Q15>(g, output),
+        FixedFormat::Q31 => quantise::<lookout::Q31>(g, output),
+    }
 }

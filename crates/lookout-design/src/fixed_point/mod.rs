@@ -41,6 +41,7 @@ pub mod gate;
 mod handoff;
 mod quantise;
 pub mod scales;
+mod tables;
 
 pub use accuracy::Accuracy;
 pub use bounds::{BoundError, PeakBound};
@@ -50,13 +51,11 @@ pub use quantise::{
     ConvertError, QuantisedTable, dequantise_real, label, quantise_real, row_exponent,
 };
 pub use scales::SignalBounds;
+pub use tables::{QForm, QScales, QTables, QTablesError};
 
 use crate::model::{FixedFormat, FixedPointSpec, Form, ScaleSource};
 use crate::numerics;
-use deviation::Stored;
-use lookout::TableName;
 use nalgebra::{Complex, DMatrix};
-use quantise::{Block, stacked};
 
 /// The fixed-point part of a design.
 #[derive(Debug, Clone, PartialEq)]
@@ -84,6 +83,13 @@ pub struct FixedDesign {
     pub form_tables: Vec<QuantisedTable>,
     /// The fused tables in Q form: f, g, h, then c, d.
     pub fused_tables: Vec<QuantisedTable>,
+    /// The tables in `format`, typed (the same integers as `form_tables`
+    /// and `fused_tables`), with the gate once the design has attached it
+    /// ([`FixedDesign::attach_gate`]).
+    pub tables: QTables,
+    /// The same tables in the other Q format at the same scales, or why
+    /// they cannot be built (not checked for stability: see `accuracy`).
+    pub other_format: Result<QTables, String>,
     /// Eigenvalues of the quantised error matrix of the form's tables (of
     /// the fused tables for a held observer).
     pub error_poles: Vec<Complex<f64>>,
@@ -98,6 +104,38 @@ pub struct FixedDesign {
     pub accuracy: Accuracy,
     /// Non-fatal findings, each tied to a model key.
     pub warnings: Vec<(String, String)>,
+}
+
+impl FixedDesign {
+    /// Quantises the design's gate `g` into the tables of both formats at
+    /// the output scales; fails only for the design's own format (the
+    /// other format then records why it has no tables).
+    pub(crate) fn attach_gate(&mut self, g: &gate::FloatGate) -> Result<(), ConvertError> {
+        let format = self.tables.format;
+        self.tables.gate = Some(gate::quantise_in(format, g, &self.tables.scales.output)?);
+        if let Ok(other) = &mut self.other_format {
+            match gate::quantise_in(other.format, g, &other.scales.output) {
+                Ok(q) => other.gate = Some(q),
+                Err(e) => {
+                    self.other_format = Err(format!(
+                        "the innovation gate cannot be stored in {}: {e}",
+                        format_name(other.format)
+                    ));
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// The tables in `format`: the design's, or the other format's at the
+    /// same scales; `Err` says why the other format has none.
+    pub fn tables_in(&self, format: FixedFormat) -> Result<&QTables, String> {
+        if format == self.tables.format {
+            Ok(&self.tables)
+        } else {
+            self.other_format.as_ref().map_err(Clone::clone)
+        }
+    }
 }
 
 /// Why fixed-point tables were refused.
@@ -165,98 +203,18 @@ fn exponent_above(value: f64) -> i8 {
     i8::try_from(s.clamp(-31, 100)).unwrap_or(100)
 }
 
-/// The stacked tables of `t` quantised in `format` at the given scales: the
-/// form's (a, b, l or a, b, k, then c, d; empty for a held observer) and
-/// the fused (f, g, h, c, d).
-pub(crate) type TablePair = (Vec<QuantisedTable>, Vec<QuantisedTable>);
-
-fn quantise_tables(
-    t: &FloatTables<'_>,
-    format: FixedFormat,
-    (sx, su, sy): (&[i8], &[i8], &[i8]),
-) -> Result<TablePair, FixedError> {
-    let fail = |e: ConvertError| FixedError {
-        key: "fixed_point",
-        message: match e {
-            ConvertError::RowTooLarge { table, row, sum } => format!(
-                "table {} row {row} cannot be stored in {}: normalised row sum {sum:.4e}",
-                quantise::label(table),
-                format_name(format),
-            ),
-            other => format!("{} tables: {other}", format_name(format)),
-        },
-    };
-    let quantise = |blocks: &[Block<'_>], out: &[i8]| match format {
-        FixedFormat::Q15 => stacked::<lookout::Q15>(blocks, out),
-        FixedFormat::Q31 => stacked::<lookout::Q31>(blocks, out),
-    };
-    let output_map = quantise(
-        &[
-            Block::new(TableName::C, t.cd, sx),
-            Block::new(TableName::D, t.dd, su),
-        ],
-        sy,
-    )
-    .map_err(fail)?;
-    let mut fused_tables = quantise(
-        &[
-            Block::new(TableName::F, t.f, sx),
-            Block::new(TableName::G, t.g, su),
-            Block::new(TableName::H, t.h, sy),
-        ],
-        sx,
-    )
-    .map_err(fail)?;
-    fused_tables.extend(output_map.iter().cloned());
-    let mut form_tables = match (t.form, t.gain) {
-        (_, None) => Vec::new(),
-        (Form::Predictor, Some(l)) => quantise(
-            &[
-                Block::new(TableName::A, t.ad, sx),
-                Block::new(TableName::B, t.bd, su),
-                Block::new(TableName::L, l, sy),
-            ],
-            sx,
-        )
-        .map_err(fail)?,
-        (Form::Current, Some(k)) => {
-            let mut tables = quantise(
-                &[
-                    Block::new(TableName::A, t.ad, sx),
-                    Block::new(TableName::B, t.bd, su),
-                ],
-                sx,
-            )
-            .map_err(fail)?;
-            tables.extend(quantise(&[Block::new(TableName::K, k, sy)], sx).map_err(fail)?);
-            tables
-        }
-    };
-    if !form_tables.is_empty() {
-        form_tables.extend(output_map.iter().cloned());
-    }
-    Ok((form_tables, fused_tables))
-}
-
 /// Eigenvalues of the stored error matrices: the form's (the fused one's
 /// for a held observer) and the fused one's.
-fn quantised_poles(
-    t: &FloatTables<'_>,
-    form_tables: &[QuantisedTable],
-    fused_tables: &[QuantisedTable],
-) -> Result<[Vec<Complex<f64>>; 2], FixedError> {
+fn quantised_poles(t: &FloatTables<'_>, q: &QTables) -> Result<[Vec<Complex<f64>>; 2], FixedError> {
     let eig_fail = |e: numerics::NumericsError| FixedError {
         key: "fixed_point",
         message: format!("eigenvalues of the quantised error matrix: {e}"),
     };
-    let fq = Stored::from_quantised(FormKind::Fused, fused_tables)
+    let fq = q
+        .stored(FormKind::Fused)
         .map_or_else(|| t.f.clone(), |s| s.error_matrix());
     let fused_poles = numerics::eigenvalues("quantised F", &fq).map_err(eig_fail)?;
-    let form = match t.form {
-        Form::Predictor => FormKind::Predictor,
-        Form::Current => FormKind::Current,
-    };
-    let error_poles = match Stored::from_quantised(form, form_tables) {
+    let error_poles = match q.stored(q.kind()).filter(|_| q.kind() != FormKind::Fused) {
         Some(s) => {
             numerics::eigenvalues("quantised error matrix", &s.error_matrix()).map_err(eig_fail)?
         }
@@ -311,8 +269,19 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
         &input_exponents[..],
         &output_exponents[..],
     );
-    let (form_tables, fused_tables) = quantise_tables(t, spec.format, exps)?;
-    let [error_poles, fused_poles] = quantised_poles(t, &form_tables, &fused_tables)?;
+    let scales = QScales {
+        state: state_exponents.clone(),
+        input: input_exponents.clone(),
+        output: output_exponents.clone(),
+    };
+    let quantise = |format| {
+        QTables::build(t, None, format, scales.clone()).map_err(|e| FixedError {
+            key: "fixed_point",
+            message: e.to_string(),
+        })
+    };
+    let tables = quantise(spec.format)?;
+    let [error_poles, fused_poles] = quantised_poles(t, &tables)?;
     let spectral_radius = radius(&error_poles);
     let fused_spectral_radius = radius(&fused_poles);
     for (what, rho) in [
@@ -342,27 +311,25 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
         FixedFormat::Q31 => FixedFormat::Q15,
         FixedFormat::Q15 => FixedFormat::Q31,
     };
-    let (q31, q15) = {
-        let mine = Ok((form_tables.clone(), fused_tables.clone()));
-        let theirs = quantise_tables(t, other, exps);
-        match spec.format {
-            FixedFormat::Q31 => (mine, theirs),
-            FixedFormat::Q15 => (theirs, mine),
-        }
+    let other_format = quantise(other);
+    let (q31, q15) = match spec.format {
+        FixedFormat::Q31 => (Ok(&tables), other_format.as_ref()),
+        FixedFormat::Q15 => (other_format.as_ref(), Ok(&tables)),
     };
-    let accuracy = accuracy::analyse(t, spec, &signals, exps, (&q31, &q15))?;
+    let accuracy = accuracy::analyse(t, spec, &signals, exps, (q31, q15))?;
     warnings.extend(accuracy::judge(t, spec, &accuracy)?);
     warnings.extend(accuracy::table_losses(
         t,
         spec,
         &accuracy,
-        form_tables.iter().chain(&fused_tables),
+        tables.all().into_iter(),
     ));
-    let max_table_error = form_tables
+    let max_table_error = tables
+        .all()
         .iter()
-        .chain(&fused_tables)
         .map(|q| q.max_abs_error)
         .fold(0.0, f64::max);
+    let (form_tables, fused_tables) = tables.lists();
     Ok(FixedDesign {
         format: spec.format,
         state_exponents,
@@ -374,6 +341,8 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
         signals,
         form_tables,
         fused_tables,
+        tables,
+        other_format: other_format.map_err(|e| e.message),
         error_poles,
         spectral_radius,
         fused_spectral_radius,
