@@ -26,12 +26,14 @@ mod error;
 mod finite;
 mod gain;
 mod noise;
+mod observer;
 pub mod recovery;
 mod separability;
 mod warnings;
 
 pub use error::DesignError;
 pub use noise::steady_covariance;
+pub use observer::{FusedMatrices, ObserverForm, ObserverTables, PlantMatrices, Sizes};
 pub use warnings::Warning;
 
 use crate::model::{Domain, Form, GainSource, Model};

@@ -24,7 +24,7 @@ mod literal;
 pub use file::{Written, read_limited, read_text_limited, write_file};
 pub use literal::Scalar;
 
-use crate::design::{Design, DesignError, design_file};
+use crate::design::{Design, DesignError, ObserverForm, design_file};
 use crate::fixed_point::gate::FloatGate;
 use crate::fixed_point::{QScales, QTables, format_name};
 use crate::model::{FixedFormat, Form, GainSource};
@@ -295,21 +295,24 @@ fn source(d: &Design, scalar: Scalar, module: &str, q: Option<&QTables>) -> Opti
         matrix(scalar, &d.cd)?,
         matrix(scalar, &d.dd)?,
     );
-    if let Some(gain) = &d.gain {
-        let (item, table, field, doc) = match d.model.observer.form {
-            Form::Predictor => (
-                "PREDICTOR",
-                "PredictorTables",
-                "l",
-                "Predictor (Luenberger) tables: x̂⁺ = A x̂ + B u + L (y − C x̂ − D u).",
-            ),
-            Form::Current => (
-                "CURRENT",
-                "CurrentTables",
-                "k",
-                "Current-form tables: x̂[k|k] = x̂[k|k−1] + K r, x̂[k+1|k] = A x̂[k|k] + B u.",
-            ),
-        };
+    let own = match d.observer().form {
+        ObserverForm::Predictor { l } => Some((
+            l,
+            "PREDICTOR",
+            "PredictorTables",
+            "l",
+            "Predictor (Luenberger) tables: x̂⁺ = A x̂ + B u + L (y − C x̂ − D u).",
+        )),
+        ObserverForm::Current { k } => Some((
+            k,
+            "CURRENT",
+            "CurrentTables",
+            "k",
+            "Current-form tables: x̂[k|k] = x̂[k|k−1] + K r, x̂[k+1|k] = A x̂[k|k] + B u.",
+        )),
+        ObserverForm::Fused => None,
+    };
+    if let Some((gain, item, table, field, doc)) = own {
         let _ = writeln!(
             s,
             "    /// {doc}\n    pub static {item}: lookout::{table}<{ty}, N, M, P> = lookout::{table} {{\n        plant: {},\n        {field}: {},\n        gate: {gate},\n    }};",

@@ -75,7 +75,7 @@ pub fn model_form_of(has_gain: bool, form: Form) -> FormKind {
 
 /// The form the model asks for (fused for a held observer).
 pub fn model_form(t: &FloatTables<'_>) -> FormKind {
-    model_form_of(t.gain.is_some(), t.form)
+    t.form.kind()
 }
 
 /// The analysis' name for a Q format.
@@ -89,8 +89,12 @@ pub fn number_kind(format: FixedFormat) -> NumberKind {
 fn exact_tables(t: &FloatTables<'_>, form: FormKind) -> Option<Stored> {
     let m = |x: &DMatrix<f64>| x.clone();
     Some(match form {
-        FormKind::Predictor => Stored::Predictor([m(t.ad), m(t.bd), m(t.gain?), m(t.cd), m(t.dd)]),
-        FormKind::Current => Stored::Current([m(t.ad), m(t.bd), m(t.gain?), m(t.cd), m(t.dd)]),
+        FormKind::Predictor => {
+            Stored::Predictor([m(t.ad), m(t.bd), m(t.form.gain()?), m(t.cd), m(t.dd)])
+        }
+        FormKind::Current => {
+            Stored::Current([m(t.ad), m(t.bd), m(t.form.gain()?), m(t.cd), m(t.dd)])
+        }
         FormKind::Fused => Stored::Fused([m(t.f), m(t.g), m(t.h)]),
     })
 }

@@ -49,7 +49,9 @@ pub(crate) fn dynamic<const R: usize, const C: usize>(m: &Matrix<f64, R, C>) -> 
 }
 
 /// The integers of `t` as a const-size Q matrix (zero outside `t`).
-fn q_matrix<Q: Fixed, const R: usize, const C: usize>(q: &DMatrix<i64>) -> Matrix<Q, R, C> {
+pub(crate) fn q_matrix<Q: Fixed, const R: usize, const C: usize>(
+    q: &DMatrix<i64>,
+) -> Matrix<Q, R, C> {
     let at = |i: usize, j: usize| q.get((i, j)).copied().unwrap_or(0);
     Matrix::from_rows(core::array::from_fn(|i| {
         core::array::from_fn(|j| Q::from_i64_saturating(at(i, j)))
@@ -57,7 +59,7 @@ fn q_matrix<Q: Fixed, const R: usize, const C: usize>(q: &DMatrix<i64>) -> Matri
 }
 
 /// The first `R` exponents (zero beyond `v`).
-fn exps<const R: usize>(v: &[i8]) -> [i8; R] {
+pub(crate) fn exps<const R: usize>(v: &[i8]) -> [i8; R] {
     core::array::from_fn(|i| v.get(i).copied().unwrap_or(0))
 }
 

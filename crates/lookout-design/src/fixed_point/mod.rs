@@ -38,7 +38,7 @@ pub mod accuracy;
 pub mod bounds;
 pub mod deviation;
 pub mod gate;
-mod handoff;
+pub(crate) mod handoff;
 mod quantise;
 pub mod scales;
 mod tables;
@@ -53,7 +53,8 @@ pub use quantise::{
 pub use scales::SignalBounds;
 pub use tables::{QForm, QScales, QTables, QTablesError};
 
-use crate::model::{FixedFormat, FixedPointSpec, Form, ScaleSource};
+use crate::design::ObserverForm;
+use crate::model::{FixedFormat, FixedPointSpec, ScaleSource};
 use crate::numerics;
 use nalgebra::{Complex, DMatrix};
 
@@ -149,8 +150,8 @@ pub struct FixedError {
 
 /// What the fixed-point design needs from the float design.
 pub struct FloatTables<'a> {
-    /// Observer form.
-    pub form: Form,
+    /// The observer's form and its gain.
+    pub form: ObserverForm<'a>,
     /// Sampled plant.
     pub ad: &'a DMatrix<f64>,
     /// Sampled input matrix.
@@ -159,8 +160,6 @@ pub struct FloatTables<'a> {
     pub cd: &'a DMatrix<f64>,
     /// Feed-through.
     pub dd: &'a DMatrix<f64>,
-    /// L or K; `None` for a held observer.
-    pub gain: Option<&'a DMatrix<f64>>,
     /// Fused F.
     pub f: &'a DMatrix<f64>,
     /// Fused G.
@@ -177,12 +176,11 @@ impl<'a> FloatTables<'a> {
     /// The tables of `design` (`state_names` its states' names).
     pub fn of(design: &'a crate::Design, state_names: &'a [String]) -> Self {
         Self {
-            form: design.model.observer.form,
+            form: design.observer().form,
             ad: &design.ad,
             bd: &design.bd,
             cd: &design.cd,
             dd: &design.dd,
-            gain: design.gain.as_ref(),
             f: &design.f,
             g: &design.g,
             h: &design.h,

@@ -8,7 +8,8 @@ use super::deviation::{FormKind, Stored};
 use super::gate::{self, FloatGate, QuantisedGate};
 use super::quantise::{Block, ConvertError, QuantisedTable, stacked};
 use super::{FloatTables, format_name};
-use crate::model::{FixedFormat, Form};
+use crate::design::ObserverForm;
+use crate::model::FixedFormat;
 use lookout::TableName;
 
 /// The power-of-two scale exponent of every signal: |v| < 2^s.
@@ -218,9 +219,9 @@ fn build_in<Q: lookout::Fixed>(
         ],
         sx,
     )?)?;
-    let form = match (t.form, t.gain) {
-        (_, None) => QForm::Held,
-        (Form::Predictor, Some(l)) => {
+    let form = match t.form {
+        ObserverForm::Fused => QForm::Held,
+        ObserverForm::Predictor { l } => {
             let [a, b, l] = three(stacked::<Q>(
                 &[
                     Block::new(TableName::A, t.ad, sx),
@@ -231,7 +232,7 @@ fn build_in<Q: lookout::Fixed>(
             )?)?;
             QForm::Predictor { a, b, l }
         }
-        (Form::Current, Some(k)) => {
+        ObserverForm::Current { k } => {
             let [a, b] = two(stacked::<Q>(
                 &[
                     Block::new(TableName::A, t.ad, sx),
