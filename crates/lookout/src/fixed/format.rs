@@ -163,22 +163,29 @@ pub trait Fixed: Copy + Ord + Debug + Default + ConstZero + sealed::Sealed {
     fn from_real(value: f64, exponent: i8) -> Option<Self> {
         let frac = i32::try_from(Self::FRAC).unwrap_or(31);
         // Exact (a power-of-two scaling) unless the result is subnormal,
-        // which rounds to zero below either way; `+ 0.5` is exact for
-        // |y| < 2⁵², and every y in range is below 2³².
-        let y = value * pow2(frac.saturating_sub(i32::from(exponent))) + 0.5;
+        // which rounds to zero below either way.
+        let x = value * pow2(frac.saturating_sub(i32::from(exponent)));
         let limit = pow2(frac);
-        if !(y >= -limit && y < limit) {
+        // round(x) half up is in [−2ᶠ, 2ᶠ) exactly when x is in
+        // [−2ᶠ − ½, 2ᶠ − ½) (both bounds exact in f64); false for NaN.
+        if !(x >= -limit - 0.5 && x < limit - 0.5) {
             return None;
         }
-        // |y| ≤ 2³¹: the cast truncates toward zero exactly; one less for a
-        // negative y with a fraction gives floor(y).
-        let t = y as i64;
-        let floor = if (t as f64) > y {
+        // |x| < 2³² + 1: the cast truncates toward zero exactly, one less
+        // for a negative x with a fraction gives floor(x), and x − floor(x)
+        // is exact (it keeps x's own fraction bits). Comparing that fraction
+        // with ½ rounds half up exactly, where floor(x + ½) would round the
+        // sum first (x = ½ − 2⁻⁵⁴ would give 1).
+        let t = x as i64;
+        let floor = if (t as f64) > x {
             t.saturating_sub(1)
         } else {
             t
         };
-        Some(Self::from_i64_saturating(floor))
+        let up = x - floor as f64 >= 0.5;
+        Some(Self::from_i64_saturating(
+            floor.saturating_add(i64::from(up)),
+        ))
     }
 
     /// The value this Q value stands for at scale exponent `exponent`,
