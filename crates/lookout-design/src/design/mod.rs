@@ -384,7 +384,8 @@ fn design_model(model: Model, origin: &str, hash: u64) -> Result<Design, DesignE
     design
         .warnings
         .extend(warnings::collect(&design, designed.warnings));
-    if design.model.observer.form == Form::Current && design.gain.is_none() {
+    if design.model.observer.form == Form::Current && design.observer().form == ObserverForm::Fused
+    {
         // The hold method defines the fused recursion only.
         design.warnings.push(Warning::new(
             "observer.gain_method",
