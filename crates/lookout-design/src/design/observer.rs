@@ -93,8 +93,10 @@ pub struct Sizes {
     pub p: usize,
 }
 
-/// Everything the runtime needs to run a design, typed (see the
-/// [module](self) docs).
+/// Everything the runtime needs to run a design, typed; built by
+/// [`Design::observer`], the one place that reads the model's form together
+/// with the designed gain (emit, the reports and the hand-off to the runtime
+/// match on [`ObserverForm`] instead).
 #[derive(Debug, Clone, Copy, PartialEq)]
 pub struct ObserverTables<'a> {
     /// The form and its gain.

@@ -86,7 +86,7 @@ pub struct FixedDesign {
     pub fused_tables: Vec<QuantisedTable>,
     /// The tables in `format`, typed (the same integers as `form_tables`
     /// and `fused_tables`), with the gate once the design has attached it
-    /// ([`FixedDesign::attach_gate`]).
+    /// (`FixedDesign::attach_gate`, called by the design).
     pub tables: QTables,
     /// The same tables in the other Q format at the same scales, or why
     /// they cannot be built (not checked for stability: see `accuracy`).
