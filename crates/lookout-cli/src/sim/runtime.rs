@@ -37,10 +37,12 @@ use lookout::{
     ChannelMask, CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedPredictorObserver, FixedPredictorTables,
     FusedObserver, FusedTables, Gate, Matrix, Observer, Outcome, Plant, PredictorObserver,
-    PredictorTables, Q15, Q31, Real, Recovery, Scales, Status, dequantise_real, quantise_real,
+    PredictorTables, Q15, Q31, Real, Recovery, Scales, Status,
 };
 use lookout_design::Design;
-use lookout_design::fixed_point::QuantisedTable;
+use lookout_design::fixed_point::{
+    ConvertError, QuantiseTables as _, QuantisedTable, dequantise_real, quantise_real,
+};
 use lookout_design::model::{FixedFormat, Form};
 use nalgebra::DMatrix;
 
@@ -443,7 +445,7 @@ fn run_fixed<Q: Fixed + Signal, const N: usize, const M: usize, const P: usize>(
         FixedFormat::Q31 => format == Format::Q31,
         FixedFormat::Q15 => format == Format::Q15,
     };
-    let convert = |e: lookout::ConvertError| {
+    let convert = |e: ConvertError| {
         CliError::BadInput(format!(
             "{}: {} tables cannot be built with the design's scales: {e:?}",
             design.origin,
