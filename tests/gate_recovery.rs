@@ -7,8 +7,8 @@
 
 use lookout::{
     CurrentObserver, CurrentTables, FixedCurrentObserver, Observer, Outcome, Q31, Recovery,
-    dequantise_real, quantise_real,
 };
+use lookout_design::fixed_point::{dequantise_real, quantise_real};
 use lookout_suite::conveyor_kalman_f64::conveyor_kalman::CURRENT;
 use std::path::Path;
 

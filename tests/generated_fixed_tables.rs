@@ -9,7 +9,7 @@ use lookout::{
     FixedFusedTables, FixedPredictorObserver, FixedPredictorTables, Observer, PredictorObserver,
     Q31,
 };
-use lookout_design::fixed_point::bounds;
+use lookout_design::fixed_point::{QuantiseTables as _, bounds};
 use lookout_suite::conveyor_f64::conveyor;
 use nalgebra::{DMatrix, DVector};
 

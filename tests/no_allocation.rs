@@ -14,6 +14,7 @@ use lookout::{
     FusedObserver, FusedTables, Gate, Matrix, Observer, Plant, PredictorObserver, PredictorTables,
     Q15, Q31, Real,
 };
+use lookout_design::fixed_point::{ConvertError, QuantiseTables as _};
 use scenario::Scenario;
 use stats_alloc::{INSTRUMENTED_SYSTEM, Region, StatsAlloc};
 use std::alloc::System;
@@ -160,7 +161,7 @@ fn fixed_steps<Q: Fixed + FromReal, const N: usize, const M: usize, const P: usi
         sc.fused.gate = Some(gate::<P>());
     }
     let s = sc.scales;
-    let fail = |e: lookout::ConvertError| -> ! { panic!("scenario tables do not convert: {e}") };
+    let fail = |e: ConvertError| -> ! { panic!("scenario tables do not convert: {e}") };
     let pt = FixedPredictorTables::<Q, N, M, P>::from_float(&sc.predictor, s)
         .unwrap_or_else(|e| fail(e));
     let ct =

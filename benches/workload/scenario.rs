@@ -11,6 +11,7 @@ use lookout::{
     CurrentTables, Fixed, FixedCurrentTables, FixedFusedTables, FixedPredictorTables, FusedTables,
     Matrix, Plant, PredictorTables, Scales,
 };
+use lookout_design::fixed_point::{ConvertError, QuantiseTables as _};
 
 /// The f64 tables of one size and the operating point the benchmarks step at.
 #[derive(Clone, Debug)]
@@ -149,7 +150,7 @@ impl<const N: usize, const M: usize, const P: usize> Scenario<N, M, P> {
         FixedFusedTables<Q, N, M, P>,
     ) {
         let s = self.scales;
-        let check = |what: &str, e: lookout::ConvertError| -> ! {
+        let check = |what: &str, e: ConvertError| -> ! {
             eprintln!("scenario ({N},{M},{P}): {what} tables do not convert: {e}");
             std::process::exit(1)
         };

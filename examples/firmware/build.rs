@@ -5,10 +5,9 @@
 //!   firmware simulates) of each demo model, by `lookout_design::emit_file`.
 //!   A model with a `[fixed_point]` section also gets its Q31 tables there
 //!   (`PREDICTOR_Q31`, `FUSED_Q31`, `SCALES`);
-//! * Q15 tables of the two predictor models, converted from the designed
-//!   f64 tables with the runtime's `from_float` at the scales below (see
-//!   `build/fixed_tables.rs`: lookout-design emits only the format the model
-//!   file names);
+//! * Q15 tables of the two predictor models, by the same emitter
+//!   (`emit_file_with`, `EmitOptions::fixed` and `EmitOptions::scales`) at
+//!   the scenario's scales below, in modules `<model>_fixed`;
 //! * the target core's memory map (`memory/<core>.x`) copied to OUT_DIR as
 //!   `memory.x`, which goes on the link search path, and `-Tlink.x` (the
 //!   linker script of cortex-m-rt or riscv-rt, which includes `memory.x`);
@@ -18,11 +17,9 @@
 //! Every model file is a `rerun-if-changed` input: editing one regenerates
 //! the tables on the next `cargo build`, with no manual step.
 
-#[path = "build/fixed_tables.rs"]
-mod fixed_tables;
-
-use lookout::Scales;
-use lookout_design::{Scalar, design_file, emit_file};
+use lookout_design::emit::{EmitOptions, emit_file_with};
+use lookout_design::model::FixedFormat;
+use lookout_design::{Scalar, emit_file};
 use std::error::Error;
 use std::path::{Path, PathBuf};
 
@@ -59,7 +56,6 @@ fn run() -> Result<(), Box<dyn Error>> {
     println!("cargo:rustc-link-search={}", out.display());
     println!("cargo:rustc-link-arg=-Tlink.x");
     println!("cargo:rerun-if-changed=memory");
-    println!("cargo:rerun-if-changed=build/fixed_tables.rs");
 
     for (model, stem) in MODELS {
         println!("cargo:rerun-if-changed={model}");
@@ -75,10 +71,22 @@ fn run() -> Result<(), Box<dyn Error>> {
         }
     }
 
-    let conveyor = design_file(Path::new("../conveyor.toml"))?;
-    fixed_tables::write(&conveyor, CONVEYOR_SCALES, &out.join("conveyor_fixed.rs"))?;
-    let two_mass = design_file(Path::new("models/two_mass.toml"))?;
-    fixed_tables::write(&two_mass, TWO_MASS_SCALES, &out.join("two_mass_fixed.rs"))?;
+    for (model, stem, [state, input, output]) in [
+        ("../conveyor.toml", "conveyor", CONVEYOR_SCALES),
+        ("models/two_mass.toml", "two_mass", TWO_MASS_SCALES),
+    ] {
+        let module = format!("{stem}_fixed");
+        let options = EmitOptions::new(Scalar::F32)
+            .module(&module)
+            .fixed(FixedFormat::Q15)
+            .scales(state, input, output);
+        emit_file_with(
+            Path::new(model),
+            &out.join(format!("{module}.rs")),
+            &options,
+        )
+        .map_err(|e| format!("{model}: {e}"))?;
+    }
     Ok(())
 }
 
@@ -103,16 +111,8 @@ fn core_of(target: &str) -> Option<(&'static str, f64, &'static str)> {
 /// scenario saturates, which the step counts in its status): angle within 64 rad
 /// (the firmware keeps it in a window, see conveyor.toml), speed within
 /// 512 rad/s (the belt reaches 300), current within 8 A (limit 5 A).
-const CONVEYOR_SCALES: Scales<2, 1, 1> = Scales {
-    state: [7, 10],
-    input: [4],
-    output: [7],
-};
+const CONVEYOR_SCALES: [&[i8]; 3] = [&[7, 10], &[4], &[7]];
 
 /// The two-mass drive's scales, chosen the same way: angles within 64 rad,
 /// speeds within 1024 rad/s, current within 8 A.
-const TWO_MASS_SCALES: Scales<4, 1, 2> = Scales {
-    state: [7, 11, 7, 11],
-    input: [4],
-    output: [7, 7],
-};
+const TWO_MASS_SCALES: [&[i8]; 3] = [&[7, 11, 7, 11], &[4], &[7, 7]];

@@ -60,7 +60,7 @@ pub fn design(d: &Design) -> String {
         "f": matrix(&d.f),
         "g": matrix(&d.g),
         "h": matrix(&d.h),
-        "gain": d.gain.as_ref().map_or(Value::Null, matrix),
+        "gain": d.observer().form.gain().map_or(Value::Null, matrix),
         "target_poles": d.target_poles.as_deref().map_or(Value::Null, poles),
         "error_poles": poles(&d.error_poles),
         "spectral_radius": d.spectral_radius,

@@ -1,6 +1,7 @@
 //! The readable report of `lookout design`.
 
 use lookout_design::Design;
+use lookout_design::design::ObserverForm;
 use lookout_design::model::{Domain, Form, GainMethod, GainSource};
 use nalgebra::{Complex, DMatrix};
 use std::fmt::Write as _;
@@ -152,19 +153,19 @@ pub fn design(d: &Design) -> String {
     );
     let _ = writeln!(s);
 
-    match (&d.gain, model.observer.form) {
-        (Some(g), Form::Predictor) => {
+    match d.observer().form {
+        ObserverForm::Predictor { l } => {
             let _ = writeln!(s, "gain L (applied to the innovation r = y − Cd x̂ − Dd u)");
-            matrix(&mut s, "L", g);
+            matrix(&mut s, "L", l);
         }
-        (Some(g), Form::Current) => {
+        ObserverForm::Current { k } => {
             let _ = writeln!(
                 s,
                 "gain K (applied to the innovation r = y − Cd x̂[k|k−1] − Dd u)"
             );
-            matrix(&mut s, "K", g);
+            matrix(&mut s, "K", k);
         }
-        (None, _) => {
+        ObserverForm::Fused => {
             let _ = writeln!(
                 s,
                 "gain: none (the held observer has no separate innovation gain)"

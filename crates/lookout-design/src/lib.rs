@@ -8,6 +8,7 @@ pub mod fixed_point;
 pub mod model;
 pub mod numerics;
 pub mod replay;
+pub mod runtime;
 
 pub use design::{Design, DesignError, Warning, design_file, design_text};
 pub use emit::{

@@ -16,8 +16,9 @@
 mod accuracy_common;
 
 use accuracy_common::{Mats, Measured, measure};
+use lookout_design::design::ObserverForm;
 use lookout_design::fixed_point::{self, FloatTables, FormKind, NumberKind};
-use lookout_design::model::{FixedFormat, FixedPointSpec, Form, ScaleSource};
+use lookout_design::model::{FixedFormat, FixedPointSpec, ScaleSource};
 use nalgebra::DMatrix;
 use proptest::prelude::*;
 
@@ -41,15 +42,14 @@ fn design(m: &Mats, spec: &FixedPointSpec) -> Result<fixed_point::FixedDesign, S
     let rho = lookout_design::numerics::spectral_radius("F", &m.f).map_err(|e| e.to_string())?;
     let t = FloatTables {
         form: if m.current {
-            Form::Current
+            ObserverForm::Current { k: &m.l }
         } else {
-            Form::Predictor
+            ObserverForm::Predictor { l: &m.l }
         },
         ad: &m.ad,
         bd: &m.bd,
         cd: &m.cd,
         dd: &m.dd,
-        gain: Some(&m.l),
         f: &m.f,
         g: &m.g,
         h: &m.h,
@@ -227,7 +227,7 @@ output_range = [10.0]
 
 fn mats_of(d: &lookout_design::Design) -> Mats {
     Mats {
-        current: d.model.observer.form == Form::Current,
+        current: matches!(d.observer().form, ObserverForm::Current { .. }),
         ad: d.ad.clone(),
         bd: d.bd.clone(),
         cd: d.cd.clone(),

@@ -6,8 +6,9 @@
 use lookout::{
     FixedFusedObserver, FixedFusedTables, FusedTables, Matrix, Observer as _, Q31, Scales,
 };
-use lookout_design::fixed_point::{self, FloatTables, bounds};
-use lookout_design::model::{FixedFormat, FixedPointSpec, Form};
+use lookout_design::design::ObserverForm;
+use lookout_design::fixed_point::{self, FloatTables, QuantiseTables as _, bounds};
+use lookout_design::model::{FixedFormat, FixedPointSpec};
 use nalgebra::{DMatrix, DVector};
 use proptest::prelude::*;
 
@@ -98,7 +99,7 @@ proptest! {
         let ad = &f + &h * &c;
         let bd = &g + &h * &d;
         let rho = lookout_design::numerics::spectral_radius("F", &f).unwrap();
-        let tables = FloatTables { form: Form::Predictor, ad: &ad, bd: &bd, cd: &c, dd: &d, gain: Some(&h), f: &f, g: &g, h: &h, spectral_radius: rho, state_names: &[] };
+        let tables = FloatTables { form: ObserverForm::Predictor { l: &h }, ad: &ad, bd: &bd, cd: &c, dd: &d, f: &f, g: &g, h: &h, spectral_radius: rho, state_names: &[] };
         let fx = fixed_point::design(&tables, &spec).unwrap();
 
         // The driven bound from zero, by the same routine.

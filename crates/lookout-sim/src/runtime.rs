@@ -44,8 +44,9 @@
 
 use crate::SimError;
 use crate::tables::{FixedTables, FloatTables, Scalar, fixed_tables, float_tables};
-use lookout::{ChannelMask, Fixed, Observer, Q15, Q31, Status, dequantise_real, quantise_real};
+use lookout::{ChannelMask, Fixed, Observer, Q15, Q31, Status};
 use lookout_design::Design;
+use lookout_design::fixed_point::{dequantise_real, quantise_real};
 
 /// A number format of the observer.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

@@ -15,7 +15,7 @@ use lookout::{
     Gate, Matrix, Plant, PredictorTables, Real, Recovery, Scales,
 };
 use lookout_design::Design;
-use lookout_design::fixed_point::QuantisedTable;
+use lookout_design::fixed_point::{ConvertError, QuantiseTables as _, QuantisedTable};
 use lookout_design::model::{FixedFormat, Form};
 use nalgebra::DMatrix;
 
@@ -181,7 +181,7 @@ pub fn fixed_tables<Q: Fixed, const N: usize, const M: usize, const P: usize>(
         FixedFormat::Q31 => format == Format::Q31,
         FixedFormat::Q15 => format == Format::Q15,
     };
-    let convert = |e: lookout::ConvertError| {
+    let convert = |e: ConvertError| {
         SimError::BadInput(format!(
             "{}: {} tables cannot be built with the design's scales: {e:?}",
             design.origin,

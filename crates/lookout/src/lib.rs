@@ -92,8 +92,9 @@
 //! rounding (half up), saturating stores counted in [`Status::saturations`].
 //! The number format, scaling rules, accumulator headroom and the conversion
 //! of raw ADC counts are documented once, on [`Fixed`]; each observer states
-//! its error per step in LSB. Host code builds the Q tables from float tables
-//! with `from_float` (e.g. [`FixedPredictorTables::from_float`]).
+//! its error per step in LSB. The Q tables are built on the host by
+//! lookout-design (generated source, or at run time through its
+//! `QuantiseTables` hand-off); this crate holds only what runs on the target.
 //!
 //! # Features
 //!
@@ -129,10 +130,9 @@ mod tables;
 
 pub use current::CurrentObserver;
 pub use fixed::{
-    Accumulation, ConvertError, Exact, Fixed, FixedCurrentObserver, FixedCurrentTables,
-    FixedFusedObserver, FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorObserver,
-    FixedPredictorTables, HeadroomError, Proven, Q15, Q31, Saturating, Scales, TableName, Wide,
-    dequantise_real, quantise_real, row_exponent,
+    Accumulation, Exact, Fixed, FixedCurrentObserver, FixedCurrentTables, FixedFusedObserver,
+    FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables,
+    HeadroomError, Proven, Q15, Q31, Saturating, Scales, TableName, Wide,
 };
 pub use fused::FusedObserver;
 pub use gate::{GATE_STAGES, Gate, Recovery};

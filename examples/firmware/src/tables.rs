@@ -18,9 +18,8 @@ pub mod f64 {
     include!(concat!(env!("OUT_DIR"), "/two_mass_f64.rs"));
 }
 
-/// Q15 tables converted by the firmware's build.rs stand-in
-/// (`<model>_fixed::PREDICTOR_Q15`, `FUSED_Q15`, `SCALES`): lookout-design
-/// emits only the format a model file names (Q31 here).
+/// Q15 tables emitted by lookout-design at the scenario's scales (see
+/// build.rs): `<model>_fixed::PREDICTOR_Q15`, `FUSED_Q15`, `SCALES`.
 pub mod fixed {
     include!(concat!(env!("OUT_DIR"), "/conveyor_fixed.rs"));
     include!(concat!(env!("OUT_DIR"), "/two_mass_fixed.rs"));

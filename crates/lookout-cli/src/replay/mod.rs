@@ -13,7 +13,6 @@ use crate::sim::plant::Trajectory;
 use crate::sim::runtime::{Format, FormatRun};
 use crate::sim::{predicted, run_formats};
 use lookout_design::Design;
-use lookout_design::model::Form;
 use lookout_design::replay::{
     AlsEstimate, AlsProblem, InnovationSummary, Innovations, NoiseMap, Whiteness, estimate_noise,
     noise_map, summarise, whiteness,
@@ -109,11 +108,7 @@ pub fn command(design: &Design, args: &crate::cli::ReplayArgs) -> Result<String,
 
 /// The predictor-form gain L (L = Ad K for the current form).
 fn predictor_gain(design: &Design) -> Option<DMatrix<f64>> {
-    let gain = design.gain.as_ref()?;
-    Some(match design.model.observer.form {
-        Form::Predictor => gain.clone(),
-        Form::Current => &design.ad * gain,
-    })
+    design.observer().form.predictor_gain(&design.ad)
 }
 
 /// Innovations of `run` over `traj`.

@@ -26,12 +26,14 @@ mod error;
 mod finite;
 mod gain;
 mod noise;
+mod observer;
 pub mod recovery;
 mod separability;
 mod warnings;
 
 pub use error::DesignError;
 pub use noise::steady_covariance;
+pub use observer::{FusedMatrices, ObserverForm, ObserverTables, PlantMatrices, Sizes};
 pub use warnings::Warning;
 
 use crate::model::{Domain, Form, GainSource, Model};
@@ -350,7 +352,7 @@ fn design_model(model: Model, origin: &str, hash: String) -> Result<Design, Desi
     if let Some(spec) = &design.model.fixed_point {
         let state_names = design.state_names();
         let tables = crate::fixed_point::FloatTables::of(&design, &state_names);
-        let fixed =
+        let mut fixed =
             crate::fixed_point::design(&tables, spec).map_err(|e| DesignError::Unsupported {
                 origin: origin.to_string(),
                 key: e.key,
@@ -364,27 +366,16 @@ fn design_model(model: Model, origin: &str, hash: String) -> Result<Design, Desi
         );
         if let Some(g) = &design.gate {
             let ty = crate::fixed_point::format_name(fixed.format);
-            if design.p() <= crate::emit::MAX_FIXED_GATE_OUTPUTS
-                && crate::emit::gate::fixed(ty, g, &fixed.output_exponents).is_none()
-            {
+            if let Err(e) = fixed.attach_gate(&g.into()) {
                 return Err(DesignError::Unsupported {
                     origin: origin.to_string(),
                     key: "observer.kalman.gate_probability",
                     message: format!(
-                        "the innovation gate (limit {:e} on rᵀS⁻¹r) cannot be stored in {ty} at the output scales; choose a gate probability (or threshold) whose limit is representable, e.g. 0.99–0.9999, or remove the gate",
+                        "the innovation gate (limit {:e} on rᵀS⁻¹r) cannot be stored in {ty} at the output scales ({e}); choose a gate probability (or threshold) whose limit is representable, e.g. 0.99–0.9999, or remove the gate",
                         g.limit
                     ),
                 });
             }
-        }
-        if design.gate.is_some() && design.p() > crate::emit::MAX_FIXED_GATE_OUTPUTS {
-            early_warnings.push(Warning::new(
-                "observer.gate_probability",
-                format!(
-                    "the fixed-point tables are emitted without the gate (generated for at most {} outputs)",
-                    crate::emit::MAX_FIXED_GATE_OUTPUTS
-                ),
-            ));
         }
         design.fixed_point = Some(fixed);
     }
@@ -394,7 +385,8 @@ fn design_model(model: Model, origin: &str, hash: String) -> Result<Design, Desi
     design
         .warnings
         .extend(warnings::collect(&design, designed.warnings));
-    if design.model.observer.form == Form::Current && design.gain.is_none() {
+    if design.model.observer.form == Form::Current && design.observer().form == ObserverForm::Fused
+    {
         // The hold method defines the fused recursion only.
         design.warnings.push(Warning::new(
             "observer.gain_method",

@@ -1,38 +1,50 @@
 //! The Q15/Q31 tables of a design with a `[fixed_point]` section, as Rust
 //! source for the runtime's fixed-point types.
 
-use crate::design::Design;
-use crate::fixed_point::{FixedDesign, QuantisedTable, format_name};
-use crate::model::Form;
+use crate::fixed_point::{FixedDesign, QForm, QTables, QuantisedTable, format_name};
 use std::fmt::Write as _;
 
-fn ints(values: &[i8]) -> String {
+pub(super) fn ints<T: ToString>(values: &[T]) -> String {
     let items: Vec<String> = values.iter().map(ToString::to_string).collect();
     format!("[{}]", items.join(", "))
 }
 
 fn qmatrix(ty: &str, t: &QuantisedTable) -> String {
-    let rows: Vec<String> =
-        t.q.row_iter()
-            .map(|r| {
-                let items: Vec<String> = r.iter().map(|v| format!("lookout::{ty}({v})")).collect();
-                format!("[{}]", items.join(", "))
-            })
-            .collect();
+    q_rows(ty, &t.q)
+}
+
+/// `lookout::Matrix::from_rows([[lookout::Q31(..), ..], ..])`.
+pub(super) fn q_rows(ty: &str, q: &nalgebra::DMatrix<i64>) -> String {
+    let rows: Vec<String> = q
+        .row_iter()
+        .map(|r| {
+            let items: Vec<String> = r.iter().map(|v| format!("lookout::{ty}({v})")).collect();
+            format!("[{}]", items.join(", "))
+        })
+        .collect();
     format!("lookout::Matrix::from_rows([{}])", rows.join(", "))
 }
 
-fn table<'a>(tables: &'a [QuantisedTable], name: &str) -> Option<&'a QuantisedTable> {
-    tables.iter().find(|t| t.name == name)
-}
-
-/// Header lines describing the scales and the quantised error dynamics.
-pub(super) fn header(fx: &FixedDesign, s: &mut String) {
+/// Header lines describing the scales and the quantised error dynamics:
+/// the design's proofs when `q` is at the design's scales, else the scales
+/// the emitting build gave.
+pub(super) fn header(fx: Option<&FixedDesign>, q: &QTables, s: &mut String) {
     let _ = writeln!(
         s,
         "// fixed point: {} (a signal v with scale exponent e is stored as round(v * 2^(b - e)), b the fraction bits)",
-        format_name(fx.format)
+        format_name(q.format)
     );
+    let Some(fx) = fx.filter(|fx| fx.tables.scales == q.scales) else {
+        let sc = &q.scales;
+        let _ = writeln!(
+            s,
+            "//   scale exponents given by the emitting build (no proven peak, no predicted deviation): state {}, input {}, output {}",
+            ints(&sc.state),
+            ints(&sc.input),
+            ints(&sc.output)
+        );
+        return;
+    };
     let _ = writeln!(
         s,
         "//   state scale exponents {} (proven peaks {})",
@@ -50,12 +62,14 @@ pub(super) fn header(fx: &FixedDesign, s: &mut String) {
         ints(&fx.output_exponents),
         peaks(&fx.innovation_bounds)
     );
-    let _ = writeln!(
-        s,
-        "//   quantised spectral radius {:.9} (fused {:.9})",
-        fx.spectral_radius, fx.fused_spectral_radius
-    );
-    let number = crate::fixed_point::accuracy::number_kind(fx.format);
+    if q.format == fx.format {
+        let _ = writeln!(
+            s,
+            "//   quantised spectral radius {:.9} (fused {:.9})",
+            fx.spectral_radius, fx.fused_spectral_radius
+        );
+    }
+    let number = crate::fixed_point::accuracy::number_kind(q.format);
     for d in fx.accuracy.deviations.iter().filter(|d| d.format == number) {
         let _ = writeln!(
             s,
@@ -81,100 +95,85 @@ pub(crate) fn proven(doc: &str, item: &str, ty: &str, value: &str) -> String {
 }
 
 /// The Q tables' items inside the model's module.
-pub(super) fn items(d: &Design, fx: &FixedDesign) -> Option<String> {
-    let ty = format_name(fx.format);
+pub(super) fn items(q: &QTables) -> String {
+    let ty = format_name(q.format);
     let suffix = ty.to_uppercase();
     let mut s = String::new();
     let _ = writeln!(
         s,
         "    /// Signal scale exponents of the {ty} tables: |v| < 2^e for each state, input and output.\n    pub const SCALES: lookout::Scales<N, M, P> = lookout::Scales {{ state: {}, input: {}, output: {} }};",
-        ints(&fx.state_exponents),
-        ints(&fx.input_exponents),
-        ints(&fx.output_exponents)
+        ints(&q.scales.state),
+        ints(&q.scales.input),
+        ints(&q.scales.output)
     );
     s.push_str(&conversions(ty));
-    let output = |tables: &[QuantisedTable]| -> Option<String> {
-        let (c, dd) = (table(tables, "c")?, table(tables, "d")?);
-        Some(format!(
-            "lookout::FixedOutputMap {{ c: {}, d: {}, exp: {} }}",
-            qmatrix(ty, c),
-            qmatrix(ty, dd),
-            ints(&c.exponents)
-        ))
-    };
-    let gate = match &d.gate {
-        Some(g) if d.p() <= super::gate::MAX_FIXED_GATE_OUTPUTS => {
-            super::gate::fixed(ty, g, &fx.output_exponents)?
-        }
-        _ => "None".to_string(),
-    };
-    if !fx.form_tables.is_empty() {
-        let t = &fx.form_tables;
-        let (a, b) = (table(t, "a")?, table(t, "b")?);
-        match d.model.observer.form {
-            Form::Predictor => {
-                let l = table(t, "l")?;
-                let _ = writeln!(
-                    s,
-                    "{}",
-                    proven(
-                        &format!("Predictor tables in {ty} (integer-only step)"),
-                        &format!("PREDICTOR_{suffix}"),
-                        &format!("FixedPredictorTables<lookout::{ty}, N, M, P>"),
-                        &format!(
-                            "lookout::FixedPredictorTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        l: {},\n        exp: {},\n        output: {},\n        gate: {gate},\n    }}",
-                            qmatrix(ty, a),
-                            qmatrix(ty, b),
-                            qmatrix(ty, l),
-                            ints(&a.exponents),
-                            output(t)?
-                        )
-                    )
-                );
-            }
-            Form::Current => {
-                let k = table(t, "k")?;
-                let _ = writeln!(
-                    s,
-                    "{}",
-                    proven(
-                        &format!("Current-form tables in {ty} (integer-only step)"),
-                        &format!("CURRENT_{suffix}"),
-                        &format!("FixedCurrentTables<lookout::{ty}, N, M, P>"),
-                        &format!(
-                            "lookout::FixedCurrentTables {{\n        scales: SCALES,\n        a: {},\n        b: {},\n        exp: {},\n        k: {},\n        k_exp: {},\n        output: {},\n        gate: {gate},\n    }}",
-                            qmatrix(ty, a),
-                            qmatrix(ty, b),
-                            ints(&a.exponents),
-                            qmatrix(ty, k),
-                            ints(&k.exponents),
-                            output(t)?
-                        )
-                    )
-                );
-            }
-        }
-    }
-    let t = &fx.fused_tables;
-    let f = table(t, "f")?;
-    let _ = writeln!(
-        s,
-        "{}",
-        proven(
-            &format!("Fused tables in {ty} (integer-only step)"),
-            &format!("FUSED_{suffix}"),
-            &format!("FixedFusedTables<lookout::{ty}, N, M, P>"),
-            &format!(
-                "lookout::FixedFusedTables {{\n        scales: SCALES,\n        f: {},\n        g: {},\n        h: {},\n        exp: {},\n        output: {},\n        gate: {gate},\n    }}",
-                qmatrix(ty, f),
-                qmatrix(ty, table(t, "g")?),
-                qmatrix(ty, table(t, "h")?),
-                ints(&f.exponents),
-                output(t)?
-            )
-        )
+    let [c, dd] = &q.output;
+    let output = format!(
+        "lookout::FixedOutputMap {{ c: {}, d: {}, exp: {} }}",
+        qmatrix(ty, c),
+        qmatrix(ty, dd),
+        ints(&c.exponents)
     );
-    Some(s)
+    let gate = q
+        .gate
+        .as_ref()
+        .map_or_else(|| "None".to_string(), |g| super::gate::fixed_literal(ty, g));
+    let own = match &q.form {
+        QForm::Predictor { a, b, l } => Some((
+            format!("Predictor tables in {ty} (integer-only step)"),
+            format!("PREDICTOR_{suffix}"),
+            "FixedPredictorTables",
+            format!(
+                "a: {},\n        b: {},\n        l: {},\n        exp: {}",
+                qmatrix(ty, a),
+                qmatrix(ty, b),
+                qmatrix(ty, l),
+                ints(&a.exponents)
+            ),
+        )),
+        QForm::Current { a, b, k } => Some((
+            format!("Current-form tables in {ty} (integer-only step)"),
+            format!("CURRENT_{suffix}"),
+            "FixedCurrentTables",
+            format!(
+                "a: {},\n        b: {},\n        exp: {},\n        k: {},\n        k_exp: {}",
+                qmatrix(ty, a),
+                qmatrix(ty, b),
+                ints(&a.exponents),
+                qmatrix(ty, k),
+                ints(&k.exponents)
+            ),
+        )),
+        QForm::Held => None,
+    };
+    let [f, g, h] = &q.fused;
+    let fused = (
+        format!("Fused tables in {ty} (integer-only step)"),
+        format!("FUSED_{suffix}"),
+        "FixedFusedTables",
+        format!(
+            "f: {},\n        g: {},\n        h: {},\n        exp: {}",
+            qmatrix(ty, f),
+            qmatrix(ty, g),
+            qmatrix(ty, h),
+            ints(&f.exponents)
+        ),
+    );
+    for (doc, item, table, fields) in own.into_iter().chain([fused]) {
+        let _ = writeln!(
+            s,
+            "{}",
+            proven(
+                &doc,
+                &item,
+                &format!("{table}<lookout::{ty}, N, M, P>"),
+                &format!(
+                    "lookout::{table} {{\n        scales: SCALES,\n        {fields},\n        output: {output},\n        gate: {gate},\n    }}"
+                )
+            )
+        );
+    }
+    s
 }
 
 /// The generated module's conversions between physical values and Q values

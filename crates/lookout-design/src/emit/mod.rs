@@ -22,25 +22,36 @@ pub(crate) mod gate;
 mod literal;
 
 pub use file::{Written, read_limited, read_text_limited, write_file, write_file_with};
-pub use gate::MAX_FIXED_GATE_OUTPUTS;
 pub use literal::Scalar;
 
-use crate::design::{Design, DesignError, design_file};
-use crate::model::{Form, GainSource};
+use crate::design::{Design, DesignError, ObserverForm, design_file};
+use crate::fixed_point::gate::FloatGate;
+use crate::fixed_point::{QScales, QTables, format_name};
+use crate::model::{FixedFormat, Form, GainSource};
 use nalgebra::DMatrix;
+use std::borrow::Cow;
 use std::fmt::Write as _;
 use std::io;
 use std::path::Path;
 
-/// How to emit a design's tables: the scalar of the float tables and the
-/// name of the generated module, so that one build can emit several
-/// variants of one model (f32 and f64 tables of one model in two modules).
+/// How to emit a design's tables: the scalar of the float tables, the
+/// name of the generated module, and which Q tables it carries, so that one
+/// build can emit several variants of one model (f32 and f64 tables, Q31
+/// and Q15 tables of one model in separate modules).
 #[derive(Clone, Debug, PartialEq, Eq)]
 pub struct EmitOptions {
     /// The scalar of the float tables.
     pub scalar: Scalar,
     /// The module name; `None` takes the model's name (`-` becoming `_`).
     pub module: Option<String>,
+    /// The Q format of the fixed-point tables; `None` takes the model's
+    /// `[fixed_point] format` (no Q tables without that section, unless
+    /// `scales` are given).
+    pub fixed: Option<FixedFormat>,
+    /// Signal scales for the Q tables instead of the design's proven ones:
+    /// the emitting build then owns the argument that signals stay inside
+    /// them (a step saturates and counts where they do not).
+    pub scales: Option<QScales>,
 }
 
 impl EmitOptions {
@@ -49,6 +60,30 @@ impl EmitOptions {
         Self {
             scalar,
             module: None,
+            fixed: None,
+            scales: None,
+        }
+    }
+
+    /// The same, with Q tables in `format` (at the design's proven scales,
+    /// unless [`EmitOptions::scales`] gives others).
+    pub fn fixed(self, format: FixedFormat) -> Self {
+        Self {
+            fixed: Some(format),
+            ..self
+        }
+    }
+
+    /// The same, with the Q tables at the signal scales `state`, `input`,
+    /// `output` (exponents e with |v| < 2^e) instead of the design's.
+    pub fn scales(self, state: &[i8], input: &[i8], output: &[i8]) -> Self {
+        Self {
+            scales: Some(QScales {
+                state: state.to_vec(),
+                input: input.to_vec(),
+                output: output.to_vec(),
+            }),
+            ..self
         }
     }
 
@@ -146,7 +181,8 @@ pub fn tables_source_with(design: &Design, options: &EmitOptions) -> Result<Stri
         None => design.model.identifier(),
     };
     let scalar = options.scalar;
-    source(design, scalar, &module).ok_or_else(|| DesignError::Unsupported {
+    let q = q_tables(design, options)?;
+    source(design, scalar, &module, q.as_deref()).ok_or_else(|| DesignError::Unsupported {
         origin: design.origin.clone(),
         key: "scalar",
         message: match scalar {
@@ -162,10 +198,47 @@ pub fn tables_source_with(design: &Design, options: &EmitOptions) -> Result<Stri
     })
 }
 
-fn source(d: &Design, scalar: Scalar, module: &str) -> Option<String> {
+/// The Q tables the module carries (see [`EmitOptions`]): the design's, the
+/// other format's at the design's scales, or new ones at given scales.
+fn q_tables<'a>(
+    d: &'a Design,
+    options: &EmitOptions,
+) -> Result<Option<Cow<'a, QTables>>, DesignError> {
+    let fx = d.fixed_point.as_ref();
+    let refuse = |key: &'static str, message: String| DesignError::Unsupported {
+        origin: d.origin.clone(),
+        key,
+        message,
+    };
+    let Some(format) = options.fixed.or(fx.map(|fx| fx.format)) else {
+        return Ok(None);
+    };
+    if let Some(scales) = &options.scales {
+        let state_names = d.state_names();
+        let float = crate::fixed_point::FloatTables::of(d, &state_names);
+        let gate = d.gate.as_ref().map(FloatGate::from);
+        return QTables::build(&float, gate.as_ref(), format, scales.clone())
+            .map(|q| Some(Cow::Owned(q)))
+            .map_err(|e| refuse("scales", format!("at the given scales: {e}")));
+    }
+    let Some(fx) = fx else {
+        return Err(refuse(
+            "fixed_point",
+            format!(
+                "{} tables need signal scales: the model has no [fixed_point] section to prove them from, and none were given",
+                format_name(format)
+            ),
+        ));
+    };
+    fx.tables_in(format)
+        .map(|q| Some(Cow::Borrowed(q)))
+        .map_err(|why| refuse("fixed_point.format", why))
+}
+
+fn source(d: &Design, scalar: Scalar, module: &str, q: Option<&QTables>) -> Option<String> {
     let ty = scalar.rust_type();
     let mut s = String::new();
-    header(d, &mut s);
+    header(d, q, &mut s);
     let _ = writeln!(
         s,
         "/// Observer tables of the model `{}` (generated; do not edit).",
@@ -222,21 +295,24 @@ fn source(d: &Design, scalar: Scalar, module: &str) -> Option<String> {
         matrix(scalar, &d.cd)?,
         matrix(scalar, &d.dd)?,
     );
-    if let Some(gain) = &d.gain {
-        let (item, table, field, doc) = match d.model.observer.form {
-            Form::Predictor => (
-                "PREDICTOR",
-                "PredictorTables",
-                "l",
-                "Predictor (Luenberger) tables: x̂⁺ = A x̂ + B u + L (y − C x̂ − D u).",
-            ),
-            Form::Current => (
-                "CURRENT",
-                "CurrentTables",
-                "k",
-                "Current-form tables: x̂[k|k] = x̂[k|k−1] + K r, x̂[k+1|k] = A x̂[k|k] + B u.",
-            ),
-        };
+    let own = match d.observer().form {
+        ObserverForm::Predictor { l } => Some((
+            l,
+            "PREDICTOR",
+            "PredictorTables",
+            "l",
+            "Predictor (Luenberger) tables: x̂⁺ = A x̂ + B u + L (y − C x̂ − D u).",
+        )),
+        ObserverForm::Current { k } => Some((
+            k,
+            "CURRENT",
+            "CurrentTables",
+            "k",
+            "Current-form tables: x̂[k|k] = x̂[k|k−1] + K r, x̂[k+1|k] = A x̂[k|k] + B u.",
+        )),
+        ObserverForm::Fused => None,
+    };
+    if let Some((gain, item, table, field, doc)) = own {
         let _ = writeln!(
             s,
             "    /// {doc}\n    pub static {item}: lookout::{table}<{ty}, N, M, P> = lookout::{table} {{\n        plant: {},\n        {field}: {},\n        gate: {gate},\n    }};",
@@ -254,8 +330,8 @@ fn source(d: &Design, scalar: Scalar, module: &str) -> Option<String> {
         matrix(scalar, &d.cd)?,
         matrix(scalar, &d.dd)?,
     );
-    if let Some(fx) = &d.fixed_point {
-        s.push_str(&fixed::items(d, fx)?);
+    if let Some(q) = q {
+        s.push_str(&fixed::items(q));
     }
     s.push_str("}\n");
     Some(s)
@@ -268,7 +344,7 @@ fn matrix(scalar: Scalar, m: &DMatrix<f64>) -> Option<String> {
     ))
 }
 
-fn header(d: &Design, s: &mut String) {
+fn header(d: &Design, q: Option<&QTables>, s: &mut String) {
     let source = match &d.model.observer.gain_source {
         GainSource::Poles(_) => "s-plane poles mapped by z = exp(sT)",
         GainSource::DiscretePoles(_) => "z-plane poles",
@@ -301,8 +377,8 @@ fn header(d: &Design, s: &mut String) {
         let _ = writeln!(s, "//   {:.9} {:+.9}i   (s: {s_text})", z.re, z.im);
     }
     let _ = writeln!(s, "// spectral radius: {:.9}", d.spectral_radius);
-    if let Some(fx) = &d.fixed_point {
-        fixed::header(fx, s);
+    if let Some(q) = q {
+        fixed::header(d.fixed_point.as_ref(), q, s);
     }
     s.push('\n');
 }

@@ -5,7 +5,7 @@
 
 use super::deviation::{self, Deviation, FormKind, NumberKind, Signals, Stored};
 use super::scales::SignalBounds;
-use super::{FixedError, FloatTables, QuantisedTable, TablePair, format_name};
+use super::{FixedError, FloatTables, QTables, QuantisedTable, format_name};
 use crate::model::{FixedFormat, FixedPointSpec, Form, ScaleSource};
 use nalgebra::{DMatrix, DVector};
 
@@ -75,7 +75,7 @@ pub fn model_form_of(has_gain: bool, form: Form) -> FormKind {
 
 /// The form the model asks for (fused for a held observer).
 pub fn model_form(t: &FloatTables<'_>) -> FormKind {
-    model_form_of(t.gain.is_some(), t.form)
+    t.form.kind()
 }
 
 /// The analysis' name for a Q format.
@@ -89,8 +89,12 @@ pub fn number_kind(format: FixedFormat) -> NumberKind {
 fn exact_tables(t: &FloatTables<'_>, form: FormKind) -> Option<Stored> {
     let m = |x: &DMatrix<f64>| x.clone();
     Some(match form {
-        FormKind::Predictor => Stored::Predictor([m(t.ad), m(t.bd), m(t.gain?), m(t.cd), m(t.dd)]),
-        FormKind::Current => Stored::Current([m(t.ad), m(t.bd), m(t.gain?), m(t.cd), m(t.dd)]),
+        FormKind::Predictor => {
+            Stored::Predictor([m(t.ad), m(t.bd), m(t.form.gain()?), m(t.cd), m(t.dd)])
+        }
+        FormKind::Current => {
+            Stored::Current([m(t.ad), m(t.bd), m(t.form.gain()?), m(t.cd), m(t.dd)])
+        }
         FormKind::Fused => Stored::Fused([m(t.f), m(t.g), m(t.h)]),
     })
 }
@@ -145,10 +149,7 @@ pub(super) fn analyse(
     spec: &FixedPointSpec,
     signals: &SignalBounds,
     (sx, su, sy): (&[i8], &[i8], &[i8]),
-    (q31, q15): (
-        &Result<TablePair, FixedError>,
-        &Result<TablePair, FixedError>,
-    ),
+    (q31, q15): (Result<&QTables, &FixedError>, Result<&QTables, &FixedError>),
 ) -> Result<Accuracy, FixedError> {
     let s = Signals::of_exponents(sx, su, sy);
     let exact = (t.f, t.g, t.h);
@@ -170,10 +171,7 @@ pub(super) fn analyse(
             ));
         }
         for (format, tables) in [(NumberKind::Q31, q31), (NumberKind::Q15, q15)] {
-            let picked = tables.as_ref().map(|(own, fused)| match form {
-                FormKind::Fused => Stored::from_quantised(form, fused),
-                _ => Stored::from_quantised(form, own),
-            });
+            let picked = tables.map(|q| q.stored(form));
             deviations.push(match picked {
                 Ok(Some(stored)) => deviation::predict(exact, &stored, format, &s),
                 Ok(None) => continue,

@@ -43,7 +43,6 @@
 //! The analysis concerns the prediction x̂[k|k−1] (the state every form
 //! carries from step to step).
 
-use super::QuantisedTable;
 use super::bounds::{self, BoundError};
 use super::scales::abs_times;
 use nalgebra::{DMatrix, DVector};
@@ -178,25 +177,6 @@ impl Stored {
             Stored::Current(t) => Stored::Current(t.each_ref().map(r)),
             Stored::Fused(t) => Stored::Fused(t.each_ref().map(r)),
         }
-    }
-
-    /// The form's tables from quantised ones (by name).
-    pub(crate) fn from_quantised(kind: FormKind, tables: &[QuantisedTable]) -> Option<Stored> {
-        let get = |name: &str| {
-            tables
-                .iter()
-                .find(|q| q.name == name)
-                .map(|q| q.dequantised.clone())
-        };
-        Some(match kind {
-            FormKind::Predictor => {
-                Stored::Predictor([get("a")?, get("b")?, get("l")?, get("c")?, get("d")?])
-            }
-            FormKind::Current => {
-                Stored::Current([get("a")?, get("b")?, get("k")?, get("c")?, get("d")?])
-            }
-            FormKind::Fused => Stored::Fused([get("f")?, get("g")?, get("h")?]),
-        })
     }
 }
 

@@ -37,20 +37,26 @@
 pub mod accuracy;
 pub mod bounds;
 pub mod deviation;
+pub mod gate;
+pub(crate) mod handoff;
 mod quantise;
 pub mod scales;
+mod tables;
 
 pub use accuracy::Accuracy;
 pub use bounds::{BoundError, PeakBound};
 pub use deviation::{Deviation, FormKind, NumberKind};
-pub use quantise::QuantisedTable;
+pub use handoff::QuantiseTables;
+pub use quantise::{
+    ConvertError, QuantisedTable, dequantise_real, label, quantise_real, row_exponent,
+};
 pub use scales::SignalBounds;
+pub use tables::{QForm, QScales, QTables, QTablesError};
 
-use crate::model::{FixedFormat, FixedPointSpec, Form, ScaleSource};
+use crate::design::ObserverForm;
+use crate::model::{FixedFormat, FixedPointSpec, ScaleSource};
 use crate::numerics;
-use deviation::Stored;
 use nalgebra::{Complex, DMatrix};
-use quantise::{Block, RowTooLarge, stacked};
 
 /// The fixed-point part of a design.
 #[derive(Debug, Clone, PartialEq)]
@@ -78,6 +84,13 @@ pub struct FixedDesign {
     pub form_tables: Vec<QuantisedTable>,
     /// The fused tables in Q form: f, g, h, then c, d.
     pub fused_tables: Vec<QuantisedTable>,
+    /// The tables in `format`, typed (the same integers as `form_tables`
+    /// and `fused_tables`), with the gate once the design has attached it
+    /// (`FixedDesign::attach_gate`, called by the design).
+    pub tables: QTables,
+    /// The same tables in the other Q format at the same scales, or why
+    /// they cannot be built (not checked for stability: see `accuracy`).
+    pub other_format: Result<QTables, String>,
     /// Eigenvalues of the quantised error matrix of the form's tables (of
     /// the fused tables for a held observer).
     pub error_poles: Vec<Complex<f64>>,
@@ -94,6 +107,38 @@ pub struct FixedDesign {
     pub warnings: Vec<(String, String)>,
 }
 
+impl FixedDesign {
+    /// Quantises the design's gate `g` into the tables of both formats at
+    /// the output scales; fails only for the design's own format (the
+    /// other format then records why it has no tables).
+    pub(crate) fn attach_gate(&mut self, g: &gate::FloatGate) -> Result<(), ConvertError> {
+        let format = self.tables.format;
+        self.tables.gate = Some(gate::quantise_in(format, g, &self.tables.scales.output)?);
+        if let Ok(other) = &mut self.other_format {
+            match gate::quantise_in(other.format, g, &other.scales.output) {
+                Ok(q) => other.gate = Some(q),
+                Err(e) => {
+                    self.other_format = Err(format!(
+                        "the innovation gate cannot be stored in {}: {e}",
+                        format_name(other.format)
+                    ));
+                }
+            }
+        }
+        Ok(())
+    }
+
+    /// The tables in `format`: the design's, or the other format's at the
+    /// same scales; `Err` says why the other format has none.
+    pub fn tables_in(&self, format: FixedFormat) -> Result<&QTables, String> {
+        if format == self.tables.format {
+            Ok(&self.tables)
+        } else {
+            self.other_format.as_ref().map_err(Clone::clone)
+        }
+    }
+}
+
 /// Why fixed-point tables were refused.
 #[derive(Debug, Clone, PartialEq)]
 pub struct FixedError {
@@ -105,8 +150,8 @@ pub struct FixedError {
 
 /// What the fixed-point design needs from the float design.
 pub struct FloatTables<'a> {
-    /// Observer form.
-    pub form: Form,
+    /// The observer's form and its gain.
+    pub form: ObserverForm<'a>,
     /// Sampled plant.
     pub ad: &'a DMatrix<f64>,
     /// Sampled input matrix.
@@ -115,8 +160,6 @@ pub struct FloatTables<'a> {
     pub cd: &'a DMatrix<f64>,
     /// Feed-through.
     pub dd: &'a DMatrix<f64>,
-    /// L or K; `None` for a held observer.
-    pub gain: Option<&'a DMatrix<f64>>,
     /// Fused F.
     pub f: &'a DMatrix<f64>,
     /// Fused G.
@@ -133,12 +176,11 @@ impl<'a> FloatTables<'a> {
     /// The tables of `design` (`state_names` its states' names).
     pub fn of(design: &'a crate::Design, state_names: &'a [String]) -> Self {
         Self {
-            form: design.model.observer.form,
+            form: design.observer().form,
             ad: &design.ad,
             bd: &design.bd,
             cd: &design.cd,
             dd: &design.dd,
-            gain: design.gain.as_ref(),
             f: &design.f,
             g: &design.g,
             h: &design.h,
@@ -159,85 +201,18 @@ fn exponent_above(value: f64) -> i8 {
     i8::try_from(s.clamp(-31, 100)).unwrap_or(100)
 }
 
-/// The stacked tables of `t` quantised in `format` at the given scales: the
-/// form's (a, b, l or a, b, k, then c, d; empty for a held observer) and
-/// the fused (f, g, h, c, d).
-pub(crate) type TablePair = (Vec<QuantisedTable>, Vec<QuantisedTable>);
-
-fn quantise_tables(
-    t: &FloatTables<'_>,
-    format: FixedFormat,
-    (sx, su, sy): (&[i8], &[i8], &[i8]),
-) -> Result<TablePair, FixedError> {
-    let fail = |e: RowTooLarge| FixedError {
-        key: "fixed_point",
-        message: format!(
-            "table {} row {} cannot be stored in {}: normalised row sum {:.4e}",
-            e.table,
-            e.row,
-            format_name(format),
-            e.sum
-        ),
-    };
-    let quantise = |blocks: &[Block<'_>], out: &[i8]| match format {
-        FixedFormat::Q15 => stacked::<lookout::Q15>(blocks, out),
-        FixedFormat::Q31 => stacked::<lookout::Q31>(blocks, out),
-    };
-    let output_map =
-        quantise(&[Block::new("c", t.cd, sx), Block::new("d", t.dd, su)], sy).map_err(fail)?;
-    let mut fused_tables = quantise(
-        &[
-            Block::new("f", t.f, sx),
-            Block::new("g", t.g, su),
-            Block::new("h", t.h, sy),
-        ],
-        sx,
-    )
-    .map_err(fail)?;
-    fused_tables.extend(output_map.iter().cloned());
-    let mut form_tables = match (t.form, t.gain) {
-        (_, None) => Vec::new(),
-        (Form::Predictor, Some(l)) => quantise(
-            &[
-                Block::new("a", t.ad, sx),
-                Block::new("b", t.bd, su),
-                Block::new("l", l, sy),
-            ],
-            sx,
-        )
-        .map_err(fail)?,
-        (Form::Current, Some(k)) => {
-            let mut tables = quantise(&[Block::new("a", t.ad, sx), Block::new("b", t.bd, su)], sx)
-                .map_err(fail)?;
-            tables.extend(quantise(&[Block::new("k", k, sy)], sx).map_err(fail)?);
-            tables
-        }
-    };
-    if !form_tables.is_empty() {
-        form_tables.extend(output_map.iter().cloned());
-    }
-    Ok((form_tables, fused_tables))
-}
-
 /// Eigenvalues of the stored error matrices: the form's (the fused one's
 /// for a held observer) and the fused one's.
-fn quantised_poles(
-    t: &FloatTables<'_>,
-    form_tables: &[QuantisedTable],
-    fused_tables: &[QuantisedTable],
-) -> Result<[Vec<Complex<f64>>; 2], FixedError> {
+fn quantised_poles(t: &FloatTables<'_>, q: &QTables) -> Result<[Vec<Complex<f64>>; 2], FixedError> {
     let eig_fail = |e: numerics::NumericsError| FixedError {
         key: "fixed_point",
         message: format!("eigenvalues of the quantised error matrix: {e}"),
     };
-    let fq = Stored::from_quantised(FormKind::Fused, fused_tables)
+    let fq = q
+        .stored(FormKind::Fused)
         .map_or_else(|| t.f.clone(), |s| s.error_matrix());
     let fused_poles = numerics::eigenvalues("quantised F", &fq).map_err(eig_fail)?;
-    let form = match t.form {
-        Form::Predictor => FormKind::Predictor,
-        Form::Current => FormKind::Current,
-    };
-    let error_poles = match Stored::from_quantised(form, form_tables) {
+    let error_poles = match q.stored(q.kind()).filter(|_| q.kind() != FormKind::Fused) {
         Some(s) => {
             numerics::eigenvalues("quantised error matrix", &s.error_matrix()).map_err(eig_fail)?
         }
@@ -292,8 +267,19 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
         &input_exponents[..],
         &output_exponents[..],
     );
-    let (form_tables, fused_tables) = quantise_tables(t, spec.format, exps)?;
-    let [error_poles, fused_poles] = quantised_poles(t, &form_tables, &fused_tables)?;
+    let scales = QScales {
+        state: state_exponents.clone(),
+        input: input_exponents.clone(),
+        output: output_exponents.clone(),
+    };
+    let quantise = |format| {
+        QTables::build(t, None, format, scales.clone()).map_err(|e| FixedError {
+            key: "fixed_point",
+            message: e.to_string(),
+        })
+    };
+    let tables = quantise(spec.format)?;
+    let [error_poles, fused_poles] = quantised_poles(t, &tables)?;
     let spectral_radius = radius(&error_poles);
     let fused_spectral_radius = radius(&fused_poles);
     for (what, rho) in [
@@ -323,27 +309,25 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
         FixedFormat::Q31 => FixedFormat::Q15,
         FixedFormat::Q15 => FixedFormat::Q31,
     };
-    let (q31, q15) = {
-        let mine = Ok((form_tables.clone(), fused_tables.clone()));
-        let theirs = quantise_tables(t, other, exps);
-        match spec.format {
-            FixedFormat::Q31 => (mine, theirs),
-            FixedFormat::Q15 => (theirs, mine),
-        }
+    let other_format = quantise(other);
+    let (q31, q15) = match spec.format {
+        FixedFormat::Q31 => (Ok(&tables), other_format.as_ref()),
+        FixedFormat::Q15 => (other_format.as_ref(), Ok(&tables)),
     };
-    let accuracy = accuracy::analyse(t, spec, &signals, exps, (&q31, &q15))?;
+    let accuracy = accuracy::analyse(t, spec, &signals, exps, (q31, q15))?;
     warnings.extend(accuracy::judge(t, spec, &accuracy)?);
     warnings.extend(accuracy::table_losses(
         t,
         spec,
         &accuracy,
-        form_tables.iter().chain(&fused_tables),
+        tables.all().into_iter(),
     ));
-    let max_table_error = form_tables
+    let max_table_error = tables
+        .all()
         .iter()
-        .chain(&fused_tables)
         .map(|q| q.max_abs_error)
         .fold(0.0, f64::max);
+    let (form_tables, fused_tables) = tables.lists();
     Ok(FixedDesign {
         format: spec.format,
         state_exponents,
@@ -355,6 +339,8 @@ pub fn design(t: &FloatTables<'_>, spec: &FixedPointSpec) -> Result<FixedDesign,
         signals,
         form_tables,
         fused_tables,
+        tables,
+        other_format: other_format.map_err(|e| e.message),
         error_poles,
         spectral_radius,
         fused_spectral_radius,

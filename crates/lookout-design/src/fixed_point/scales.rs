@@ -19,7 +19,8 @@
 
 use super::bounds::{self, BoundError, PeakBound};
 use super::{FixedError, FloatTables};
-use crate::model::{FixedPointSpec, Form, ScaleSource};
+use crate::design::ObserverForm;
+use crate::model::{FixedPointSpec, ScaleSource};
 use nalgebra::{DMatrix, DVector};
 
 /// The proven peaks behind the scales.
@@ -140,8 +141,8 @@ pub(super) fn signal_bounds(
             (x, innovation, proof, None)
         }
     };
-    let state = match (t.form, t.gain) {
-        (Form::Current, Some(k)) => x_peak
+    let state = match t.form {
+        ObserverForm::Current { k } => x_peak
             .iter()
             .zip(abs_times(k, &innovation))
             .map(|(x, kr)| x + kr)

@@ -8,9 +8,10 @@ use lookout::{
     CurrentObserver, CurrentTables, Fixed, FixedCurrentObserver, FixedCurrentTables,
     FixedFusedObserver, FixedFusedTables, FixedPredictorObserver, FixedPredictorTables,
     FusedObserver, FusedTables, Matrix, Observer, Plant, PredictorObserver, PredictorTables, Q15,
-    Q31, Real, Scales, dequantise_real, quantise_real,
+    Q31, Real, Scales,
 };
 use lookout_design::fixed_point::{FixedDesign, FormKind, NumberKind};
+use lookout_design::fixed_point::{QuantiseTables as _, dequantise_real, quantise_real};
 use nalgebra::DMatrix;
 
 /// The float tables of a predictor or current-form design (one input, one

@@ -152,6 +152,58 @@ pub trait Fixed: Copy + Ord + Debug + Default + ConstZero + sealed::Sealed {
     fn to_i64(self) -> i64;
     /// The `i64` value clamped into the word.
     fn from_i64_saturating(value: i64) -> Self;
+
+    /// `value` (in a unit whose scale exponent is `exponent`) as a Q value,
+    /// round(value · 2^(F − exponent)) half up; `None` when not finite or
+    /// outside [−2^exponent, 2^exponent). The one rounding of a float to a
+    /// Q value: signals on the target (the generated `state_to_q`, …) and,
+    /// in lookout-design, every table entry. Uses floats (core only, no
+    /// float library): keep it out of the step path.
+    #[allow(clippy::float_arithmetic)] // a conversion outside the steps
+    fn from_real(value: f64, exponent: i8) -> Option<Self> {
+        let frac = i32::try_from(Self::FRAC).unwrap_or(31);
+        // Exact (a power-of-two scaling) unless the result is subnormal,
+        // which rounds to zero below either way.
+        let x = value * pow2(frac.saturating_sub(i32::from(exponent)));
+        let limit = pow2(frac);
+        // round(x) half up is in [−2ᶠ, 2ᶠ) exactly when x is in
+        // [−2ᶠ − ½, 2ᶠ − ½) (both bounds exact in f64); false for NaN.
+        if !(x >= -limit - 0.5 && x < limit - 0.5) {
+            return None;
+        }
+        // |x| < 2³² + 1: the cast truncates toward zero exactly, one less
+        // for a negative x with a fraction gives floor(x), and x − floor(x)
+        // is exact (it keeps x's own fraction bits). Comparing that fraction
+        // with ½ rounds half up exactly, where floor(x + ½) would round the
+        // sum first (x = ½ − 2⁻⁵⁴ would give 1).
+        let t = x as i64;
+        let floor = if (t as f64) > x {
+            t.saturating_sub(1)
+        } else {
+            t
+        };
+        let up = x - floor as f64 >= 0.5;
+        Some(Self::from_i64_saturating(
+            floor.saturating_add(i64::from(up)),
+        ))
+    }
+
+    /// The value this Q value stands for at scale exponent `exponent`,
+    /// q · 2^(exponent − F), exact in `f64`. Uses floats.
+    #[allow(clippy::float_arithmetic)] // a conversion outside the steps
+    fn to_real(self, exponent: i8) -> f64 {
+        let frac = i32::try_from(Self::FRAC).unwrap_or(31);
+        // |q| ≤ 2³¹ and 2^(e − F) ≥ 2⁻¹⁵⁹ is normal: the product is exact.
+        self.to_i64() as f64 * pow2(i32::from(exponent).saturating_sub(frac))
+    }
+}
+
+/// 2^k in `f64` for |k| ≤ 1022 (built from its bits, exact; clamped to the
+/// normal range beyond, which the callers' exponents, within ±160, never
+/// reach).
+fn pow2(k: i32) -> f64 {
+    let biased = u64::try_from(k.saturating_add(1023).clamp(1, 2046)).unwrap_or(1023);
+    f64::from_bits(biased.wrapping_shl(52))
 }
 
 /// `value >> shift` for shift < 16 (taken modulo 16).
@@ -326,18 +378,18 @@ macro_rules! q_format {
                 Self::from_i64_saturating(value)
             }
 
-            /// Host-side: `value` (in a unit whose scale exponent is
-            /// `exponent`) as a Q value, rounded half up; `None` when not
-            /// finite or outside [−2^exponent, 2^exponent). Uses floats: keep
-            /// it out of the step path.
+            /// `value` (in a unit whose scale exponent is `exponent`) as a Q
+            /// value, rounded half up; `None` when not finite or outside
+            /// [−2^exponent, 2^exponent) (see [`Fixed::from_real`]). Uses
+            /// floats: keep it out of the step path.
             pub fn from_real(value: f64, exponent: i8) -> Option<Self> {
-                super::convert::quantise(value, exponent)
+                <Self as Fixed>::from_real(value, exponent)
             }
 
-            /// Host-side: the value this Q value stands for at scale exponent
+            /// The value this Q value stands for at scale exponent
             /// `exponent` (exact in `f64`). Uses floats.
             pub fn to_real(self, exponent: i8) -> f64 {
-                super::convert::dequantise(self, exponent)
+                <Self as Fixed>::to_real(self, exponent)
             }
         }
 

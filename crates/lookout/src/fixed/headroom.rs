@@ -2,7 +2,6 @@
 //! are built: in `const` evaluation for generated tables, at run time for
 //! tables built on the target.
 
-use super::convert::TableName;
 use super::format::{Fixed, Q15, Q31};
 use super::tables::{FixedCurrentTables, FixedFusedTables, FixedOutputMap, FixedPredictorTables};
 use crate::Matrix;
@@ -15,8 +14,8 @@ use core::marker::PhantomData;
 ///
 /// Why that suffices: every Q input has |v| ≤ 2ᶠ, so each partial sum is at
 /// most (2^(F+1) − 1) · 2ᶠ = 2^(2F+1) − 2ᶠ in magnitude, inside the
-/// accumulator (i32 for Q15, i64 for Q31). Tables built by `from_float`
-/// or lookout-design satisfy it with room to spare: their row exponents
+/// accumulator (i32 for Q15, i64 for Q31). Tables built by lookout-design's
+/// quantiser satisfy it with room to spare: their row exponents
 /// make Σ_j |q_ij| ≤ 2ᶠ + n/2 (see [`Fixed`]). The innovation gate's own
 /// sums are not covered; it keeps its saturating arithmetic.
 ///
@@ -93,6 +92,37 @@ impl<T> core::ops::Deref for Proven<T> {
     fn deref(&self) -> &T {
         &self.0
     }
+}
+
+/// Which table a row belongs to (in a [`HeadroomError`], and in
+/// lookout-design's quantiser errors).
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Hash)]
+#[non_exhaustive]
+pub enum TableName {
+    /// A.
+    A,
+    /// B.
+    B,
+    /// C.
+    C,
+    /// D.
+    D,
+    /// L, the predictor gain.
+    L,
+    /// K, the current-form gain.
+    K,
+    /// F of the fused tables.
+    F,
+    /// G of the fused tables.
+    G,
+    /// H of the fused tables.
+    H,
+    /// S⁻¹ of the gate.
+    SInv,
+    /// The gate's per-channel 1/S_jj.
+    ChannelInvVariance,
+    /// The gate's limits.
+    Limit,
 }
 
 /// A row that breaks the accumulator headroom rule (see [`Proven`]).

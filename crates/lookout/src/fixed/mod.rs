@@ -9,11 +9,13 @@
 //! [`FixedPredictorObserver`], [`FixedCurrentObserver`],
 //! [`FixedFusedObserver`], on [`FixedPredictorTables`],
 //! [`FixedCurrentTables`], [`FixedFusedTables`] (plain data for `const`
-//! items). Host code builds those tables from float ones with `from_float`
-//! and checks them with `to_float`; the steps never touch a float.
+//! items). The tables are built on the host by lookout-design's one quantiser
+//! (`lookout_design::fixed_point`, also behind the generated tables); the
+//! steps never touch a float.
 //!
 //! The steps are checked three ways: this module denies
-//! `clippy::float_arithmetic` (outside the two host-side conversion files)
+//! `clippy::float_arithmetic` (outside the two value conversions
+//! [`Fixed::from_real`] and [`Fixed::to_real`], which are not steps)
 //! and `clippy::arithmetic_side_effects` (every integer operation saturates,
 //! or is a shift or product proved in range beside it), and
 //! `checks/no-panic` links every fixed-point step under `#[no_panic]`.
@@ -21,7 +23,6 @@
 
 #[macro_use]
 mod arith;
-mod convert;
 mod current;
 mod format;
 mod fused;
@@ -29,15 +30,13 @@ mod gate;
 mod headroom;
 mod measurement;
 mod predictor;
-mod quantise;
 mod tables;
 
 pub use arith::{Accumulation, Exact, Saturating};
-pub use convert::{ConvertError, TableName, dequantise_real, quantise_real, row_exponent};
 pub use current::FixedCurrentObserver;
 pub use format::{Fixed, Q15, Q31, Wide};
 pub use fused::FixedFusedObserver;
-pub use headroom::{HeadroomError, Proven};
+pub use headroom::{HeadroomError, Proven, TableName};
 pub use predictor::FixedPredictorObserver;
 pub use tables::{
     FixedCurrentTables, FixedFusedTables, FixedGate, FixedOutputMap, FixedPredictorTables, Scales,

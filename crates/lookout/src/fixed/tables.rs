@@ -2,8 +2,8 @@
 //! the exponents that say what they mean (see [`Fixed`] for the format).
 //!
 //! Like the float tables they are plain data for `const` or `static` items;
-//! `from_float` (host side) builds them from float tables and chooses every
-//! row exponent, `to_float` gives back exactly the tables they stand for.
+//! lookout-design's quantiser builds them on the host and chooses every row
+//! exponent.
 
 use super::format::Fixed;
 use crate::{Matrix, Recovery};

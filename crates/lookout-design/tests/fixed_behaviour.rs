@@ -15,6 +15,7 @@
 // Index loops read like the formulas they check.
 #![allow(clippy::needless_range_loop)]
 
+#[path = "../../lookout/tests/fixed_common/mod.rs"]
 mod fixed_common;
 use fixed_common::*;
 use lookout::{
@@ -23,6 +24,7 @@ use lookout::{
     FusedObserver, FusedTables, Gate, Matrix, Observer, Plant, PredictorObserver, PredictorTables,
     Q15, Q31, Scales,
 };
+use lookout_design::fixed_point::QuantiseTables as _;
 
 const N: usize = 3;
 const M: usize = 2;

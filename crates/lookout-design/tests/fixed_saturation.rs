@@ -7,6 +7,7 @@ use lookout::{
     FixedPredictorObserver, FixedPredictorTables, Matrix, Observer, Outcome, Plant,
     PredictorTables, Q15, Q31, Scales,
 };
+use lookout_design::fixed_point::QuantiseTables as _;
 
 /// An integrator x⁺ = x + ½ u, y = x, with gain `l`; every scale 2⁰.
 fn integrator<Q: Fixed>(l: f64) -> FixedPredictorTables<Q, 1, 1, 1> {

@@ -9,6 +9,7 @@ use lookout::{
     ChannelMask, FixedOutputMap, FixedPredictorObserver, FixedPredictorTables, Matrix, Observer,
     Plant, PredictorTables, Q31, Scales,
 };
+use lookout_design::fixed_point::QuantiseTables as _;
 
 /// The firmware example must assert this same checksum on the target
 /// (FNV-1a 64 over the little-endian bytes of x̂[0], x̂[1] after each step

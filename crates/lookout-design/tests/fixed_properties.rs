@@ -14,6 +14,7 @@
 //! 2^(F − 40) LSB covers the f64 reference's own rounding (about
 //! 16 · 2⁻⁵³ of full scale per step, over 1/(1 − ρ) ≤ 20 steps: 2^(F − 44)).
 
+#[path = "../../lookout/tests/fixed_common/mod.rs"]
 mod fixed_common;
 use fixed_common::*;
 use lookout::{
@@ -22,6 +23,7 @@ use lookout::{
     FusedObserver, FusedTables, Matrix, Observer, Plant, PredictorObserver, PredictorTables, Q15,
     Q31, Scales,
 };
+use lookout_design::fixed_point::QuantiseTables as _;
 use proptest::prelude::*;
 
 const N: usize = 3;

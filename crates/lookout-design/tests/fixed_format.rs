@@ -2,9 +2,10 @@
 //! resolution 2⁻¹⁵ and 2⁻³¹, saturation limits) are common practice.
 
 use lookout::{
-    ConvertError, Fixed, FixedPredictorObserver, FixedPredictorTables, Gate, Matrix, Observer,
-    Plant, PredictorTables, Q15, Q31, Scales, TableName, Wide,
+    Fixed, FixedPredictorObserver, FixedPredictorTables, Gate, Matrix, Observer, Plant,
+    PredictorTables, Q15, Q31, Scales, TableName, Wide,
 };
+use lookout_design::fixed_point::{ConvertError, QuantiseTables as _};
 
 #[test]
 fn ranges_and_resolution_are_the_usual_q_formats() {
