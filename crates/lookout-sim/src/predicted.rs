@@ -7,7 +7,7 @@ use super::metrics::Metrics;
 use super::metrics::Peaks;
 use super::runtime::{Format, FormatRun};
 use lookout_design::Design;
-use lookout_design::fixed_point::{Deviation, FormKind, NumberKind, accuracy::model_form_of};
+use lookout_design::fixed_point::{Deviation, FormKind, NumberKind};
 
 /// The prediction for one format's run.
 #[derive(Debug, Clone)]
@@ -43,7 +43,7 @@ fn outside(peaks: &[f64], exps: &[i8]) -> bool {
 /// The form simulate runs in every format: the model's, fused for a held
 /// observer (as `runtime` builds its tables).
 pub fn simulated_form(design: &Design) -> FormKind {
-    model_form_of(design.gain.is_some(), design.model.observer.form)
+    design.observer().form.kind()
 }
 
 /// The design's proven deviation of `format` from the exact observer, for

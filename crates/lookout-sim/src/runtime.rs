@@ -10,12 +10,10 @@
 //! table (A, B, the gain, F, G, H, and zero columns in C), start at 0 and
 //! stay 0: each of their updates is a sum of products with zero table
 //! entries, and a real state's update adds their zero columns times their
-//! zero value. In fixed point a padded row's exponent is whatever the
-//! quantiser gives an all-zero row; it only shifts that row's zero sum, and
-//! the real rows' exponents depend only on their own entries (the check
-//! against the design's emitted tables, integer by integer, covers exactly
-//! the real rows and would fail otherwise); a padded state's scale exponent
-//! is 0, at which 0 is exact and never saturates. Padded inputs get zero columns in B (G) and D and
+//! zero value. In fixed point a padded row's exponent is 0 (the design's
+//! hand-off pads with 0); it only shifts that row's zero sum, and the real
+//! rows keep the integers and exponents the design emits; a padded state's
+//! scale exponent is 0, at which 0 is exact and never saturates. Padded inputs get zero columns in B (G) and D and
 //! a zero value; padded outputs get zero rows in C and D, zero columns in the
 //! gain (L, K or H), zero rows and columns in the gate's S⁻¹, a zero
 //! 1/S_jj, and a zero reading that is always *offered* as valid. Then:
@@ -55,7 +53,7 @@ pub enum Format {
     F64,
     /// `f32`.
     F32,
-    /// Q31 tables from `from_float` with the design's scales.
+    /// The design's Q31 tables (its scales), as emitted.
     Q31,
     /// Q15.
     Q15,
@@ -237,8 +235,9 @@ fn owned<Tab: 'static, const N: usize>(tables: Tab, exps: [i8; N]) -> Box<Owned<
 
 fn float_set<T: Scalar + Signal + 'static, const N: usize, const M: usize, const P: usize>(
     design: &Design,
+    format: Format,
 ) -> Result<Box<dyn TableSet>, SimError> {
-    Ok(match float_tables::<T, N, M, P>(design)? {
+    Ok(match float_tables::<T, N, M, P>(design, format)? {
         FloatTables::Predictor(t) => owned(t, [0; N]),
         FloatTables::Current(t) => owned(t, [0; N]),
         FloatTables::Fused(t) => owned(t, [0; N]),
@@ -277,8 +276,8 @@ pub(crate) fn build_sized<const N: usize, const M: usize, const P: usize>(
     format: Format,
 ) -> Result<Box<dyn TableSet>, SimError> {
     match format {
-        Format::F64 => float_set::<f64, N, M, P>(design),
-        Format::F32 => float_set::<f32, N, M, P>(design),
+        Format::F64 => float_set::<f64, N, M, P>(design, format),
+        Format::F32 => float_set::<f32, N, M, P>(design, format),
         Format::Q31 => fixed_set::<Q31, N, M, P>(design, format),
         Format::Q15 => fixed_set::<Q15, N, M, P>(design, format),
     }

@@ -8,6 +8,7 @@ use super::verdict::{Interval, Verdict};
 use super::{RunResult, Setup};
 use crate::error::CliError;
 use lookout_design::Design;
+use lookout_design::design::ObserverForm;
 use lookout_sim::plant::Row;
 use lookout_sim::{Outputs, SimError, Sink};
 use serde_json::{Value, json};
@@ -106,10 +107,10 @@ pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
         r.traj.steps,
         t,
         opts.seed,
-        match (&design.gain, design.model.observer.form) {
-            (None, _) => "held (fused)",
-            (_, lookout_design::model::Form::Predictor) => "predictor",
-            (_, lookout_design::model::Form::Current) => "current-form",
+        match design.observer().form {
+            ObserverForm::Fused => "held (fused)",
+            ObserverForm::Predictor { .. } => "predictor",
+            ObserverForm::Current { .. } => "current-form",
         }
     );
     let _ = writeln!(

@@ -6,7 +6,7 @@
 use super::deviation::{self, Deviation, FormKind, NumberKind, Signals, Stored};
 use super::scales::SignalBounds;
 use super::{FixedError, FloatTables, QTables, QuantisedTable, format_name};
-use crate::model::{FixedFormat, FixedPointSpec, Form, ScaleSource};
+use crate::model::{FixedFormat, FixedPointSpec, ScaleSource};
 use nalgebra::{DMatrix, DVector};
 
 /// Share of a state's range a predicted deviation may reach, without a
@@ -60,16 +60,6 @@ impl Accuracy {
             .filter(|d| self.meets(d))
             .map(|d| format!("{} {}", d.form.name(), d.format.name()))
             .collect()
-    }
-}
-
-/// The form the runtime runs for a design with (or without, for a held
-/// observer) an innovation gain.
-pub fn model_form_of(has_gain: bool, form: Form) -> FormKind {
-    match (form, has_gain) {
-        (_, false) => FormKind::Fused,
-        (Form::Predictor, true) => FormKind::Predictor,
-        (Form::Current, true) => FormKind::Current,
     }
 }
 
