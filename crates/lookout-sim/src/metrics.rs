@@ -139,6 +139,7 @@ impl Windows {
 pub struct Running {
     at: Windows,
     sum_sq: Vec<f64>,
+    scaled_sum_sq: Vec<ScaledSumSq>,
     final_error: Vec<f64>,
     third_quarter: Vec<f64>,
     fourth_quarter: Vec<f64>,
@@ -149,6 +150,42 @@ pub struct Running {
     /// the noise-free band's residual).
     pub residual: Vec<f64>,
     max_deviation_from_f64: Vec<f64>,
+}
+
+/// A sum of squares kept as scale² · ssq with scale the largest |v| seen,
+/// so it cannot overflow while every v is finite (the scaled update of
+/// LAPACK's `dlassq`; Anderson et al., *LAPACK Users' Guide*, 3rd ed.,
+/// SIAM 1999). Used for the RMS when the plain sum overflows (errors near
+/// 1e154 and above); below that the plain sum is kept, bit for bit.
+#[derive(Debug, Clone, Copy, Default)]
+struct ScaledSumSq {
+    scale: f64,
+    ssq: f64,
+}
+
+impl ScaledSumSq {
+    fn add(&mut self, v: f64) {
+        let a = v.abs();
+        if a == 0.0 {
+            return;
+        }
+        if !a.is_finite() {
+            self.scale = a;
+            self.ssq = 1.0;
+        } else if self.scale < a {
+            let r = self.scale / a;
+            self.ssq = 1.0 + self.ssq * r * r;
+            self.scale = a;
+        } else {
+            let r = a / self.scale;
+            self.ssq += r * r;
+        }
+    }
+
+    /// √(Σv² / len).
+    fn rms(&self, len: usize) -> f64 {
+        self.scale * (self.ssq / len as f64).sqrt()
+    }
 }
 
 fn raise_if(on: bool, peak: &mut [f64], e: &[f64]) {
@@ -166,6 +203,7 @@ impl Running {
             // The neutral element of f64's `Sum`, so the sums equal those
             // of a stored series bit for bit.
             sum_sq: vec![-0.0; n],
+            scaled_sum_sq: vec![ScaledSumSq::default(); n],
             final_error: vec![f64::NAN; n],
             third_quarter: zeros.clone(),
             fourth_quarter: zeros.clone(),
@@ -181,8 +219,9 @@ impl Running {
     /// run's.
     pub fn add(&mut self, k: usize, e: &[f64], estimate: &[f64], f64_estimate: &[f64]) {
         let at = self.at;
-        for (s, v) in self.sum_sq.iter_mut().zip(e) {
+        for ((s, scaled), v) in self.sum_sq.iter_mut().zip(&mut self.scaled_sum_sq).zip(e) {
             *s += v * v;
+            scaled.add(*v);
         }
         self.final_error.copy_from_slice(e);
         raise_if(at.quarter(2, k), &mut self.third_quarter, e);
@@ -581,7 +620,14 @@ pub fn finish(design: &Design, tests: &Tests, j: Judged, r: &Running, s: &Settli
     let rms_error = r
         .sum_sq
         .iter()
-        .map(|&sum_sq| (sum_sq / len as f64).sqrt())
+        .zip(&r.scaled_sum_sq)
+        .map(|(&sum_sq, scaled)| {
+            if sum_sq.is_finite() {
+                (sum_sq / len as f64).sqrt()
+            } else {
+                scaled.rms(len)
+            }
+        })
         .collect();
     let grew = r
         .fourth_quarter

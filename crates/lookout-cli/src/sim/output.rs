@@ -124,8 +124,8 @@ pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
     for (i, name) in names.iter().enumerate() {
         let _ = writeln!(
             s,
-            "tolerance {name}: {:.3e} {} (f64)",
-            r.tolerance.get(i).copied().unwrap_or(f64::NAN),
+            "tolerance {name}: {} {} (f64)",
+            Sci(r.tolerance.get(i).copied().unwrap_or(f64::NAN), 3),
             units.get(i).map_or("", String::as_str)
         );
     }
@@ -138,10 +138,10 @@ pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
             "state", "rms error", "final error", "mean error", "band", "max |x̂−x̂64|"
         );
         for (i, name) in names.iter().enumerate() {
-            let get = |v: &Vec<f64>| v.get(i).copied().unwrap_or(f64::NAN);
+            let get = |v: &Vec<f64>| Sci(v.get(i).copied().unwrap_or(f64::NAN), 4);
             let _ = writeln!(
                 s,
-                "  {:<14} {:>13.4e} {:>13.4e} {:>13.4e} {:>13.4e} {:>13.4e}  {}",
+                "  {:<14} {:>13} {:>13} {:>13} {:>13} {:>13}  {}",
                 name,
                 get(&m.rms_error),
                 get(&m.final_error),
@@ -180,6 +180,21 @@ pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
         let _ = writeln!(s, "\nwarning: {w}");
     }
     s
+}
+
+/// A number in scientific notation with `.1` digits after the point, or
+/// the words "not finite" (a diverged run's errors are reported in words,
+/// never as `inf` or `NaN`; its verdict says what happened).
+struct Sci(f64, usize);
+
+impl std::fmt::Display for Sci {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        if self.0.is_finite() {
+            f.pad(&format!("{:.*e}", self.1, self.0))
+        } else {
+            f.pad("not finite")
+        }
+    }
 }
 
 fn interval_json(i: Option<Interval>) -> Value {
