@@ -11,19 +11,14 @@
 //! (run that one case and print its model), `LOOKOUT_FUZZ_DUMP` (a directory
 //! that receives every model that designed, for running `simulate` on).
 
-#[path = "hostile/generator.rs"]
-mod generator;
+mod hostile {
+    pub mod driver;
+    pub mod generator;
+}
 
-use generator::Rng;
 use lookout_design::{Design, Scalar, design_text, tables_source};
 use nalgebra::DMatrix;
-use std::collections::BTreeMap;
 use std::panic::{AssertUnwindSafe, catch_unwind};
-use std::time::{Duration, Instant};
-
-fn env_u64(name: &str) -> Option<u64> {
-    std::env::var(name).ok().and_then(|v| v.trim().parse().ok())
-}
 
 /// The first non-finite number of the design's tables and results, if any.
 fn non_finite(d: &Design) -> Option<String> {
@@ -105,56 +100,10 @@ fn run_case(text: &str) -> Result<String, String> {
 
 #[test]
 fn generated_models_never_panic_and_never_give_non_finite_results() {
-    let seed = env_u64("LOOKOUT_FUZZ_SEED").unwrap_or(16);
-    // Panics are caught and reported with their case; keep stderr quiet.
-    std::panic::set_hook(Box::new(|_| {}));
-    if let Some(case) = env_u64("LOOKOUT_FUZZ_CASE") {
-        let text = generator::model(&mut Rng::for_case(seed, case));
-        println!("{text}");
-        let _ = std::panic::take_hook();
-        println!("{:?}", run_case(&text));
-        return;
-    }
-    let deadline = env_u64("LOOKOUT_FUZZ_SECONDS").map(|s| Instant::now() + Duration::from_secs(s));
-    let cases = env_u64("LOOKOUT_FUZZ_CASES").unwrap_or(300);
     let dump = std::env::var_os("LOOKOUT_FUZZ_DUMP").map(std::path::PathBuf::from);
-    let mut tally: BTreeMap<String, usize> = BTreeMap::new();
-    let mut failures = Vec::new();
-    let mut case = 0u64;
-    while deadline.map_or(case < cases, |d| Instant::now() < d) {
-        let text = generator::model(&mut Rng::for_case(seed, case));
-        let started = Instant::now();
-        let outcome = run_case(&text);
-        // Reported, not asserted (no timing thresholds in tests).
-        let took = started.elapsed();
-        if took > Duration::from_secs(2) {
-            eprintln!("fuzz: case {case} took {:.1} s", took.as_secs_f64());
+    hostile::driver::fuzz("fuzz", 300, run_case, |case, text, label| {
+        if let (Some(dir), true) = (&dump, label.starts_with("designed")) {
+            let _ = std::fs::write(dir.join(format!("case{case}.toml")), text);
         }
-        match outcome {
-            Ok(label) => {
-                if let (Some(dir), true) = (&dump, label.starts_with("designed")) {
-                    let _ = std::fs::write(dir.join(format!("case{case}.toml")), &text);
-                }
-                *tally.entry(label).or_default() += 1;
-            }
-            Err(why) => failures.push(format!("case {case}: {why}\n{text}")),
-        }
-        case += 1;
-    }
-    let _ = std::panic::take_hook();
-    eprintln!("fuzz: seed {seed}, {case} cases");
-    for (label, count) in &tally {
-        eprintln!("  {count:6}  {label}");
-    }
-    assert!(
-        failures.is_empty(),
-        "{} of {case} cases failed (seed {seed}); rerun one with LOOKOUT_FUZZ_SEED={seed} LOOKOUT_FUZZ_CASE=k:\n{}",
-        failures.len(),
-        failures
-            .iter()
-            .take(5)
-            .cloned()
-            .collect::<Vec<_>>()
-            .join("\n")
-    );
+    });
 }

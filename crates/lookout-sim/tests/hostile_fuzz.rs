@@ -15,23 +15,19 @@
 //! which roughly a third design), `LOOKOUT_FUZZ_SECONDS` (run until this
 //! much time has passed instead), `LOOKOUT_FUZZ_CASE` (one case, printed).
 
-#[path = "../../lookout-design/tests/hostile/generator.rs"]
-mod generator;
+#[path = "../../lookout-design/tests/hostile"]
+mod hostile {
+    pub mod driver;
+    pub mod generator;
+}
 
-use generator::Rng;
 use lookout_design::{Design, design_text};
 use lookout_sim::metrics::Metrics;
 use lookout_sim::reference::Reference;
 use lookout_sim::signal::InputSignal;
 use lookout_sim::verdict::Verdict;
 use lookout_sim::{Outputs, RunConfig, Setup, formats, run_once};
-use std::collections::BTreeMap;
 use std::panic::{AssertUnwindSafe, catch_unwind};
-use std::time::{Duration, Instant};
-
-fn env_u64(name: &str) -> Option<u64> {
-    std::env::var(name).ok().and_then(|v| v.trim().parse().ok())
-}
 
 /// The run every designed model gets: short, noisy, a little mismatched.
 fn config(design: &Design) -> RunConfig {
@@ -123,46 +119,10 @@ fn run_case(text: &str) -> Result<String, String> {
 
 #[test]
 fn generated_models_simulate_without_panic_and_with_honest_verdicts() {
-    let seed = env_u64("LOOKOUT_FUZZ_SEED").unwrap_or(16);
-    std::panic::set_hook(Box::new(|_| {}));
-    if let Some(case) = env_u64("LOOKOUT_FUZZ_CASE") {
-        let text = generator::model(&mut Rng::for_case(seed, case));
-        println!("{text}");
-        let _ = std::panic::take_hook();
-        println!("{:?}", run_case(&text));
-        return;
-    }
-    let deadline = env_u64("LOOKOUT_FUZZ_SECONDS").map(|s| Instant::now() + Duration::from_secs(s));
-    let cases = env_u64("LOOKOUT_FUZZ_CASES").unwrap_or(120);
-    let mut tally: BTreeMap<String, usize> = BTreeMap::new();
-    let mut failures = Vec::new();
-    let mut case = 0u64;
-    while deadline.map_or(case < cases, |d| Instant::now() < d) {
-        let text = generator::model(&mut Rng::for_case(seed, case));
-        match run_case(&text) {
-            Ok(label) => *tally.entry(label).or_default() += 1,
-            Err(why) => failures.push(format!("case {case}: {why}\n{text}")),
-        }
-        case += 1;
-    }
-    let _ = std::panic::take_hook();
-    eprintln!("simulate fuzz: seed {seed}, {case} cases");
-    for (label, count) in &tally {
-        eprintln!("  {count:6}  {label}");
-    }
+    let tally = hostile::driver::fuzz("simulate fuzz", 120, run_case, |_, _, _| {});
+    let one_case = std::env::var_os("LOOKOUT_FUZZ_CASE").is_some();
     assert!(
-        tally.keys().any(|k| k.starts_with("simulated")),
+        one_case || tally.keys().any(|k| k.starts_with("simulated")),
         "no generated model was simulated: the fuzzer tests nothing"
-    );
-    assert!(
-        failures.is_empty(),
-        "{} of {case} cases failed (seed {seed}); rerun one with LOOKOUT_FUZZ_SEED={seed} LOOKOUT_FUZZ_CASE=k:\n{}",
-        failures.len(),
-        failures
-            .iter()
-            .take(5)
-            .cloned()
-            .collect::<Vec<_>>()
-            .join("\n")
     );
 }
