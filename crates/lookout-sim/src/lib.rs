@@ -310,6 +310,11 @@ pub fn run_once(
         .unwrap_or_default();
     let events = (first.traj.dropped, first.traj.outliers);
     let tested = reference.noisy && events == (0, 0);
+    let forgotten = if tested {
+        reference.forgotten(&opts.initial_error, opts.steps)
+    } else {
+        0
+    };
     let mut judged = Vec::new();
     let mut settling = Vec::new();
     for run in &first.runs {
@@ -318,7 +323,13 @@ pub fn run_once(
             .tolerance
             .clone()
             .unwrap_or_else(|| metrics::band(reference, &deviation, &f64_dev, &residual));
-        settling.push(Settling::new(band.clone(), reference, opts.steps, tested));
+        settling.push(Settling::new(
+            band.clone(),
+            reference,
+            opts.steps,
+            tested,
+            forgotten,
+        ));
         judged.push(Judged {
             reference,
             deviation,

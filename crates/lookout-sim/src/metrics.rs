@@ -59,6 +59,12 @@ pub struct Metrics {
     pub nis: Option<Interval>,
     /// Why a consistency test was not made.
     pub untested: Option<String>,
+    /// The first step of the samples the mean-error, NEES and NIS tests
+    /// use: for a settled run the later of settling and the step the
+    /// initial error is forgotten by
+    /// ([`Reference::forgotten`](crate::reference::Reference::forgotten));
+    /// for a run that does not settle, the start of its last quarter.
+    pub tests_from: usize,
     /// The verdict.
     pub verdict: Verdict,
 }
@@ -312,6 +318,9 @@ pub struct Settling {
     /// Whether NEES and NIS are summed (noise, no dropouts or outliers).
     tested: bool,
     last_outside: Option<usize>,
+    /// The first step whose samples the mean, NEES and NIS use: the
+    /// initial error is forgotten by then.
+    forgotten: usize,
     settled: Sums,
     /// From the last quarter's start: the bias test of a run that does not
     /// settle.
@@ -320,7 +329,15 @@ pub struct Settling {
 
 impl Settling {
     /// Nothing seen yet, with the format's `band`.
-    pub fn new(band: Vec<f64>, reference: &Reference, steps: usize, tested: bool) -> Self {
+    /// `forgotten`: the first step the statistics may use (see
+    /// [`Reference::forgotten`]).
+    pub fn new(
+        band: Vec<f64>,
+        reference: &Reference,
+        steps: usize,
+        tested: bool,
+        forgotten: usize,
+    ) -> Self {
         let n = band.len();
         let at = Windows::new(steps + 1);
         Self {
@@ -335,7 +352,8 @@ impl Settling {
             },
             tested,
             last_outside: None,
-            settled: Sums::from(0, n),
+            forgotten,
+            settled: Sums::from(forgotten, n),
             tail: Sums::from(at.len - at.len / 4, n),
         }
     }
@@ -350,7 +368,7 @@ impl Settling {
                 .any(|(v, &tol)| !tol.is_finite() || v.is_nan() || v.abs() > tol);
         if outside {
             self.last_outside = Some(s.k);
-            self.settled = Sums::from(s.k + 1, s.e.len());
+            self.settled = Sums::from((s.k + 1).max(self.forgotten), s.e.len());
         }
         for sums in [&mut self.settled, &mut self.tail] {
             if sums.takes(s.k, self.spacing) {
@@ -656,6 +674,8 @@ pub fn finish(design: &Design, tests: &Tests, j: Judged, r: &Running, s: &Settli
     };
     let verdict = if !r.finite {
         Verdict::NotFinite
+    } else if j.reference.noisy && settling_step.is_some() && sums.samples == 0 {
+        Verdict::TooShort { from: sums.start }
     } else if let Some(state) = biased {
         Verdict::Biased { state }
     } else if settling_step.is_none() {
@@ -681,6 +701,7 @@ pub fn finish(design: &Design, tests: &Tests, j: Judged, r: &Running, s: &Settli
         nees,
         nis,
         untested,
+        tests_from: sums.start,
         verdict,
     }
 }

@@ -7,7 +7,7 @@ use super::config::RunConfig;
 use super::plant;
 use crate::SimError;
 use lookout_design::Design;
-use nalgebra::DMatrix;
+use nalgebra::{DMatrix, DVector};
 
 /// Confidence of a run's verdict: a consistent, unbiased run is called
 /// biased or inconsistent with probability at most 1 − CONFIDENCE, the
@@ -41,7 +41,7 @@ pub struct Reference {
     pub white_innovation: bool,
     /// Where Σ comes from, for the report.
     pub source: &'static str,
-    /// Spacing d of nearly independent samples: ρ(F)^d ≤ 0.01.
+    /// Spacing d of nearly independent samples (see [`spacing`]).
     pub spacing: usize,
     /// k of the k·σ band (see [`band_multiple`]).
     pub k: f64,
@@ -100,12 +100,7 @@ impl Reference {
         };
         let innovation_cov = &design.cd * &cov * design.cd.transpose() + r;
         let sigma = cov.diagonal().iter().map(|v| v.max(0.0).sqrt()).collect();
-        let rho = design.spectral_radius;
-        let spacing = if rho > 0.0 && rho < 1.0 {
-            ((0.01f64).ln() / rho.ln()).ceil().max(1.0) as usize
-        } else {
-            1
-        };
+        let spacing = spacing(&design.f, &cov, design.spectral_radius, opts.steps);
         Ok(Self {
             cov,
             sigma,
@@ -123,6 +118,36 @@ impl Reference {
         })
     }
 
+    /// The first step from which the initial error `e0` (x − x̂ at step
+    /// 0) is forgotten for the statistics: its expected remainder
+    /// d_k = F^k e0 adds at most 1 % of n to the NEES (d_kᵀ Σ⁻¹ d_k ≤
+    /// 0.01 n), so samples from there on measure the noise the design
+    /// predicts, not the start. 0 without a positive definite Σ (then
+    /// nothing is tested); `steps + 1` when it is not forgotten within the
+    /// run. Costs n² per step, as one observer does.
+    pub fn forgotten(&self, e0: &[f64], steps: usize) -> usize {
+        let n = self.f.nrows();
+        let Some(chol) = self.cov.clone().cholesky() else {
+            return 0;
+        };
+        if e0.len() != n {
+            return 0;
+        }
+        let limit = 0.01 * n as f64;
+        let mut d = DVector::from_column_slice(e0);
+        for k in 0..=steps {
+            let q = d.dot(&chol.solve(&d));
+            if !q.is_finite() {
+                break;
+            }
+            if q <= limit {
+                return k;
+            }
+            d = &self.f * d;
+        }
+        steps + 1
+    }
+
     /// The default initial error: 3 σ per state with noise (1 in the
     /// state's unit where σ is zero).
     pub fn initial_error(&self) -> Vec<f64> {
@@ -130,5 +155,100 @@ impl Reference {
             .iter()
             .map(|&s| if self.noisy && s > 0.0 { 3.0 * s } else { 1.0 })
             .collect()
+    }
+}
+
+/// Spacing d of nearly independent samples of the error: the correlation
+/// between e_k and e_{k+d} in coordinates where Σ = L Lᵀ is the identity is
+/// G^d with G = L⁻¹ F L, so d is the first power of two with
+/// ‖G^d‖_F ≤ 0.01 (the Frobenius norm bounds the spectral norm; samples 2d
+/// apart are then correlated by at most 1e-4). Whitening matters for
+/// strongly non-normal F, whose errors stay correlated far longer than
+/// ρ(F)^d suggests. Found by repeated squaring: log₂ d products of n × n
+/// matrices. Without a positive definite Σ (no noise: nothing is tested)
+/// the rule ρ(F)^d ≤ 0.01. At most `steps + 1` (a single sample).
+pub fn spacing(f: &DMatrix<f64>, cov: &DMatrix<f64>, rho: f64, steps: usize) -> usize {
+    let cap = steps.saturating_add(1);
+    let Some(chol) = cov.clone().cholesky() else {
+        return if rho > 0.0 && rho < 1.0 {
+            (((0.01f64).ln() / rho.ln()).ceil().max(1.0) as usize).min(cap)
+        } else {
+            1
+        };
+    };
+    let l = chol.l();
+    let Some(g) = l.clone().solve_lower_triangular(&(f * &l)) else {
+        return cap;
+    };
+    let mut power = g;
+    let mut d = 1usize;
+    while d < cap {
+        let norm = power.norm();
+        if !norm.is_finite() {
+            return cap;
+        }
+        if norm <= 0.01 {
+            return d;
+        }
+        power = &power * &power;
+        d = d.saturating_mul(2);
+    }
+    cap
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn reference(f: DMatrix<f64>, cov: DMatrix<f64>) -> Reference {
+        let n = f.nrows();
+        Reference {
+            sigma: cov.diagonal().iter().map(|v| v.sqrt()).collect(),
+            innovation_cov: DMatrix::identity(1, 1),
+            cov,
+            noisy: true,
+            white_innovation: false,
+            source: "test",
+            spacing: 1,
+            k: band_multiple(n, 100),
+            f,
+        }
+    }
+
+    /// Scalar closed form: F = 0.9, Σ = 1, so G^d = 0.9^d ≤ 0.01 from
+    /// d = 44 (ln 0.01 / ln 0.9 = 43.7); the first power of two is 64.
+    #[test]
+    fn spacing_of_a_scalar_is_the_power_of_two_past_the_closed_form() {
+        let f = DMatrix::from_element(1, 1, 0.9);
+        let cov = DMatrix::identity(1, 1);
+        assert_eq!(spacing(&f, &cov, 0.9, 10_000), 64);
+        // Capped at one sample for a short run.
+        assert_eq!(spacing(&f, &cov, 0.9, 20), 21);
+    }
+
+    /// A Jordan block F = [[0.5, 10], [0, 0.5]] (Σ = I, so G = F) has
+    /// F^d = [[0.5^d, 10 d 0.5^(d−1)], [0, 0.5^d]] (closed form, common
+    /// practice). ρ(F)^d ≤ 0.01 from d = 7, but ‖F^8‖_F ≈ 10·8·0.5^7 =
+    /// 0.63: samples 8 apart are still strongly correlated. ‖F^16‖_F ≈
+    /// 10·16·0.5^15 = 4.9e-3 ≤ 0.01, so d = 16.
+    #[test]
+    fn spacing_of_a_non_normal_block_follows_its_transient() {
+        let f = DMatrix::from_row_slice(2, 2, &[0.5, 10.0, 0.0, 0.5]);
+        let cov = DMatrix::identity(2, 2);
+        assert_eq!(spacing(&f, &cov, 0.5, 10_000), 16);
+        // Without a positive definite Σ: the spectral-radius rule.
+        let zero = DMatrix::zeros(2, 2);
+        assert_eq!(spacing(&f, &zero, 0.5, 10_000), 7);
+    }
+
+    /// Scalar closed form: F = 0.5, Σ = 1, e₀ = 10: (10·0.5^k)² ≤ 0.01·1
+    /// from 0.5^k ≤ 0.01, k = 7 (0.5^7 = 0.0078, 0.5^6 = 0.0156).
+    #[test]
+    fn the_initial_error_is_forgotten_at_the_closed_form_step() {
+        let r = reference(DMatrix::from_element(1, 1, 0.5), DMatrix::identity(1, 1));
+        assert_eq!(r.forgotten(&[10.0], 100), 7);
+        assert_eq!(r.forgotten(&[0.05], 100), 0);
+        // Not forgotten within a 5-step run.
+        assert_eq!(r.forgotten(&[10.0], 5), 6);
     }
 }

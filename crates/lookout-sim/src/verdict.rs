@@ -36,6 +36,13 @@ pub enum Verdict {
     /// The f64 observer diverged: the design itself fails, whatever this
     /// format did.
     DesignFailed,
+    /// Settled inside its band, but the run ends before the initial error
+    /// is forgotten: no samples to test the mean error, NEES and NIS on,
+    /// so nothing is claimed.
+    TooShort {
+        /// The first step the tests could use.
+        from: usize,
+    },
 }
 
 impl Verdict {
@@ -53,6 +60,7 @@ impl Verdict {
             Verdict::NotSettled => "not settled",
             Verdict::NotFinite => "diverged",
             Verdict::DesignFailed => "design failed",
+            Verdict::TooShort { .. } => "too short",
         }
     }
 }

@@ -54,6 +54,9 @@ fn verdict(design: &Design, run: &FormatRun, m: &Metrics, t: f64) -> String {
             format!("DIVERGED: the f64 observer's error is not finite: the design fails; {tail}")
         }
         (Verdict::NotFinite, _) => format!("DIVERGED: the error is not finite; {tail}"),
+        (Verdict::TooShort { from }, _) => format!(
+            "NOT TESTED: within its band, but the initial error is not forgotten before step {from}, after the run's end: no samples for the bias and consistency tests; run more steps or start closer; {tail}"
+        ),
         (Verdict::DesignFailed, _) => {
             format!("NOT CONVERGED: the f64 observer diverged, so the design fails; {tail}")
         }
@@ -87,9 +90,10 @@ fn statistics(m: &Metrics, n: usize) -> String {
         return parts.join("; ");
     }
     format!(
-        "tests at {:.3} % each ({} % for the run): {}",
+        "tests at {:.3} % each ({} % for the run), samples from step {}: {}",
         100.0 * super::reference::test_confidence(n),
         100.0 * super::reference::CONFIDENCE,
+        m.tests_from,
         parts.join("; ")
     )
 }
@@ -233,6 +237,7 @@ pub fn json(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
                 "nees": interval_json(m.nees),
                 "nis": interval_json(m.nis),
                 "consistency_untested": m.untested,
+                "tests_from_step": m.tests_from,
             })
         })
         .collect();
