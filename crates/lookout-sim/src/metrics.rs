@@ -401,13 +401,14 @@ impl Settling {
         }
     }
 
-    /// First step from which every state's error stays within its band.
+    /// First step from which every state's error stays within its band,
+    /// when that span holds the whole last quarter of the run: a run that
+    /// enters its band later has too little left to call it settled (and
+    /// the boundedness test, which compares the last two quarters, would
+    /// contradict it).
     fn settling_step(&self) -> Option<usize> {
-        match self.last_outside {
-            None => Some(0),
-            Some(k) if k + 1 < self.at.len => Some(k + 1),
-            Some(_) => None,
-        }
+        let k = self.last_outside.map_or(0, |k| k + 1);
+        (k <= self.at.len - self.at.len / 4).then_some(k)
     }
 }
 

@@ -60,7 +60,9 @@ fn verdict(design: &Design, run: &FormatRun, m: &Metrics, t: f64) -> String {
         (Verdict::DesignFailed, _) => {
             format!("NOT CONVERGED: the f64 observer diverged, so the design fails; {tail}")
         }
-        _ => format!("NOT CONVERGED: the error never stays within its band; {tail}"),
+        _ => format!(
+            "NOT CONVERGED: the error does not stay within its band over the last quarter of the run; {tail}"
+        ),
     }
 }
 
