@@ -44,7 +44,7 @@ pub enum Form {
     /// reading y and writing u.
     Predictor,
     /// `x̂[k|k] = x̂[k|k−1] + M (y[k] − C x̂[k|k−1] − D u[k])`, then
-    /// `x̂[k+1|k] = A x̂[k|k] + B u[k]`: the estimate uses y[k] at once.
+    /// `x̂[k+1|k] = A x̂[k|k] + B u[k]`: the estimate uses y\[k\] at once.
     Current,
 }
 

@@ -4,7 +4,7 @@
 //! method for estimating noise covariances", Automatica 42(2), 2006.
 //!
 //! Model x⁺ = Ad x + Bd u + w (w of covariance Qd, linear in the model's Q:
-//! see [`super::noise_map`]), y = Cd x + Dd u + v (v of covariance R), run
+//! see [`super::noise_map`](fn@super::noise_map)), y = Cd x + Dd u + v (v of covariance R), run
 //! through the predictor gain L (L = Ad K for the current form). The
 //! prediction error ε = x − x̂ obeys ε⁺ = Ā ε + w − L v with Ā = Ad − L Cd,
 //! and the innovation is e = Cd ε + v. In steady state, with

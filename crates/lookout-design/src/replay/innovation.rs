@@ -23,7 +23,7 @@ use nalgebra::{DMatrix, DVector};
 pub struct Innovations {
     /// Values per sample (outputs).
     pub p: usize,
-    /// e[k], p per row.
+    /// e\[k\], p per row.
     pub values: Vec<f64>,
     /// Whether sample k had every reading (its row is then used).
     pub present: Vec<bool>,
@@ -40,7 +40,7 @@ impl Innovations {
         self.present.is_empty()
     }
 
-    /// e[k] when sample k is present.
+    /// e\[k\] when sample k is present.
     pub fn get(&self, k: usize) -> Option<&[f64]> {
         if !*self.present.get(k)? {
             return None;

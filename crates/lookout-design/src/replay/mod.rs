@@ -1,11 +1,11 @@
 //! Statistics of an observer replayed over logged data: the innovation
 //! sequence's mean, covariance and normalised innovation squared against the
 //! design's prediction ([`innovation`]), its normalised autocorrelation and a
-//! whiteness test ([`whiteness`]), and the process and measurement noise
+//! whiteness test ([`whiteness`](mod@whiteness)), and the process and measurement noise
 //! covariances fitted to its autocovariances ([`als`]).
 //!
 //! Pure numerics: nothing here reads files or runs an observer. The caller
-//! hands in the innovation sequence e[k] = y[k] − Cd x̂[k|k−1] − Dd u[k],
+//! hands in the innovation sequence e\[k\] = y\[k\] − Cd x̂\[k|k−1\] − Dd u\[k\],
 //! row-major with p values per sample, and a flag per sample telling whether
 //! every reading of that sample was present.
 //!

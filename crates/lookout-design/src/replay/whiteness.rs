@@ -3,7 +3,7 @@
 //! of variances and adaptive Kalman filtering", IEEE Transactions on
 //! Automatic Control 15(2), 1970).
 //!
-//! Ĉ_j = (1/N_j) Σ e[k+j] e[k]ᵀ over the N_j pairs (k, k+j) whose samples are
+//! Ĉ_j = (1/N_j) Σ e\[k+j\] e\[k\]ᵀ over the N_j pairs (k, k+j) whose samples are
 //! both present (no mean removed: a right observer's innovations have zero
 //! mean, and the fit of [`super::als`] uses the same Ĉ_j). The normalised
 //! entries ρ_j(a, b) = Ĉ_j(a, b) / √(Ĉ_0(a, a) Ĉ_0(b, b)) of a white sequence
@@ -108,7 +108,7 @@ pub fn whiteness(e: &Innovations, lags: usize, level: f64) -> Option<Whiteness> 
 
 /// The smallest c with P(X > c) ≤ `alpha` for X ~ Binomial(m, q), and that
 /// tail probability. The terms are formed in logarithms (ln Γ through
-/// [`ln_choose`]) so large m neither overflows nor underflows early.
+/// `ln_choose`) so large m neither overflows nor underflows early.
 pub fn binomial_threshold(m: usize, q: f64, alpha: f64) -> (usize, f64) {
     let mf = m as f64;
     let pmf = |k: usize| {
