@@ -262,3 +262,24 @@ fn plot_extension_is_case_insensitive() {
     assert!(bytes.starts_with(b"\x89PNG"));
     assert_eq!(entries(&dir), ["errors.PNG"]);
 }
+
+/// A run and a sweep whose formats diverge exit 0 with their verdicts
+/// ("diverged"), and print no `inf` or `NaN` token anywhere.
+#[test]
+fn diverging_runs_print_no_non_finite_number() {
+    let model = fixture("diverging_plant_prints_no_inf.toml");
+    for args in [
+        vec!["simulate", &model, "--steps", "300"],
+        vec!["simulate", &model, "--steps", "300", "--sweep", "3"],
+    ] {
+        let out = lookout(&args);
+        assert!(out.status.success(), "{args:?}");
+        let text = String::from_utf8_lossy(&out.stdout);
+        assert!(
+            text.contains("diverged") || text.contains("DIVERGED"),
+            "{text}"
+        );
+        let tokens = text.split(|c: char| !(c.is_ascii_alphanumeric() || c == '_'));
+        assert!(!tokens.clone().any(|t| t == "inf" || t == "NaN"), "{text}");
+    }
+}

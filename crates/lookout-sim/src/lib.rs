@@ -65,6 +65,7 @@ pub mod runtime;
 pub mod signal;
 pub mod sizes;
 pub mod tables;
+pub mod text;
 pub mod verdict;
 
 pub use config::{InputDisturbance, RunConfig};

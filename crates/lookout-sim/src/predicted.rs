@@ -6,6 +6,7 @@ use super::RunResult;
 use super::metrics::Metrics;
 use super::metrics::Peaks;
 use super::runtime::{Format, FormatRun};
+use crate::text::Sci;
 use lookout_design::Design;
 use lookout_design::fixed_point::{Deviation, FormKind, NumberKind};
 
@@ -119,7 +120,7 @@ pub fn not_covered(
 impl Check {
     /// One report line.
     pub fn line(&self) -> String {
-        let b: Vec<String> = self.bound.iter().map(|v| format!("{v:.3e}")).collect();
+        let b: Vec<String> = self.bound.iter().map(|&v| Sci(v, 3).to_string()).collect();
         let verdict = match (&self.not_covered, self.exceeded) {
             (Some(why), _) => format!("not covered: {why}"),
             (None, true) => "MEASURED ABOVE PREDICTION: a bug in the design's analysis".to_string(),

@@ -10,6 +10,7 @@ use crate::error::CliError;
 use lookout_design::Design;
 use lookout_design::design::ObserverForm;
 use lookout_sim::plant::Row;
+use lookout_sim::text::Sci;
 use lookout_sim::{Outputs, SimError, Sink};
 use serde_json::{Value, json};
 use std::fmt::Write as _;
@@ -186,21 +187,6 @@ pub fn text(design: &Design, opts: &SimOptions, r: &RunResult) -> String {
         let _ = writeln!(s, "\nwarning: {w}");
     }
     s
-}
-
-/// A number in scientific notation with `.1` digits after the point, or
-/// the words "not finite" (a diverged run's errors are reported in words,
-/// never as `inf` or `NaN`; its verdict says what happened).
-struct Sci(f64, usize);
-
-impl std::fmt::Display for Sci {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        if self.0.is_finite() {
-            f.pad(&format!("{:.*e}", self.1, self.0))
-        } else {
-            f.pad("not finite")
-        }
-    }
 }
 
 fn interval_json(i: Option<Interval>) -> Value {
@@ -424,7 +410,7 @@ pub fn sweep_text(design: &Design, opts: &SimOptions, s: &SweepSummary) -> Strin
             let errs: Vec<String> = names
                 .iter()
                 .zip(&w.final_error)
-                .map(|(n, e)| format!("{n} {e:.3e}"))
+                .map(|(n, &e)| format!("{n} {}", Sci(e, 3)))
                 .collect();
             let _ = writeln!(
                 out,
