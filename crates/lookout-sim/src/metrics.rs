@@ -287,7 +287,7 @@ impl Tests {
     /// The factors for `reference`.
     pub fn of(reference: &Reference) -> Self {
         Self {
-            nees: reference.cov.clone().cholesky(),
+            nees: reference.cov_factor.clone(),
             nis: reference.innovation_cov.clone().cholesky(),
         }
     }

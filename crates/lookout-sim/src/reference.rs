@@ -7,7 +7,7 @@ use super::config::RunConfig;
 use super::plant;
 use crate::SimError;
 use lookout_design::Design;
-use nalgebra::{DMatrix, DVector};
+use nalgebra::{Cholesky, DMatrix, DVector, Dyn};
 
 /// Confidence of a run's verdict: a consistent, unbiased run is called
 /// biased or inconsistent with probability at most 1 − CONFIDENCE, the
@@ -30,6 +30,9 @@ pub struct Reference {
     /// Σ, the steady covariance of the recorded estimate's error under the
     /// simulated noise (zero without noise).
     pub cov: DMatrix<f64>,
+    /// Σ's Cholesky factor, when Σ is positive definite (factored once
+    /// here for the NEES, the sample spacing and the forgotten start).
+    pub cov_factor: Option<Cholesky<f64, Dyn>>,
     /// √Σ_ii per state.
     pub sigma: Vec<f64>,
     /// C Σ Cᵀ + R, the innovation covariance.
@@ -100,9 +103,16 @@ impl Reference {
         };
         let innovation_cov = &design.cd * &cov * design.cd.transpose() + r;
         let sigma = cov.diagonal().iter().map(|v| v.max(0.0).sqrt()).collect();
-        let spacing = spacing(&design.f, &cov, design.spectral_radius, opts.steps);
+        let cov_factor = cov.clone().cholesky();
+        let spacing = spacing(
+            &design.f,
+            cov_factor.as_ref(),
+            design.spectral_radius,
+            opts.steps,
+        );
         Ok(Self {
             cov,
+            cov_factor,
             sigma,
             innovation_cov,
             noisy,
@@ -127,7 +137,7 @@ impl Reference {
     /// run. Costs n² per step, as one observer does.
     pub fn forgotten(&self, e0: &[f64], steps: usize) -> usize {
         let n = self.f.nrows();
-        let Some(chol) = self.cov.clone().cholesky() else {
+        let Some(chol) = &self.cov_factor else {
             return 0;
         };
         if e0.len() != n {
@@ -167,9 +177,14 @@ impl Reference {
 /// ρ(F)^d suggests. Found by repeated squaring: log₂ d products of n × n
 /// matrices. Without a positive definite Σ (no noise: nothing is tested)
 /// the rule ρ(F)^d ≤ 0.01. At most `steps + 1` (a single sample).
-pub fn spacing(f: &DMatrix<f64>, cov: &DMatrix<f64>, rho: f64, steps: usize) -> usize {
+pub fn spacing(
+    f: &DMatrix<f64>,
+    cov_factor: Option<&Cholesky<f64, Dyn>>,
+    rho: f64,
+    steps: usize,
+) -> usize {
     let cap = steps.saturating_add(1);
-    let Some(chol) = cov.clone().cholesky() else {
+    let Some(chol) = cov_factor else {
         return if rho > 0.0 && rho < 1.0 {
             (((0.01f64).ln() / rho.ln()).ceil().max(1.0) as usize).min(cap)
         } else {
@@ -203,6 +218,7 @@ mod tests {
     fn reference(f: DMatrix<f64>, cov: DMatrix<f64>) -> Reference {
         let n = f.nrows();
         Reference {
+            cov_factor: cov.clone().cholesky(),
             sigma: cov.diagonal().iter().map(|v| v.sqrt()).collect(),
             innovation_cov: DMatrix::identity(1, 1),
             cov,
@@ -221,9 +237,12 @@ mod tests {
     fn spacing_of_a_scalar_is_the_power_of_two_past_the_closed_form() {
         let f = DMatrix::from_element(1, 1, 0.9);
         let cov = DMatrix::identity(1, 1);
-        assert_eq!(spacing(&f, &cov, 0.9, 10_000), 64);
+        assert_eq!(
+            spacing(&f, cov.clone().cholesky().as_ref(), 0.9, 10_000),
+            64
+        );
         // Capped at one sample for a short run.
-        assert_eq!(spacing(&f, &cov, 0.9, 20), 21);
+        assert_eq!(spacing(&f, cov.clone().cholesky().as_ref(), 0.9, 20), 21);
     }
 
     /// A Jordan block F = [[0.5, 10], [0, 0.5]] (Σ = I, so G = F) has
@@ -235,10 +254,13 @@ mod tests {
     fn spacing_of_a_non_normal_block_follows_its_transient() {
         let f = DMatrix::from_row_slice(2, 2, &[0.5, 10.0, 0.0, 0.5]);
         let cov = DMatrix::identity(2, 2);
-        assert_eq!(spacing(&f, &cov, 0.5, 10_000), 16);
+        assert_eq!(
+            spacing(&f, cov.clone().cholesky().as_ref(), 0.5, 10_000),
+            16
+        );
         // Without a positive definite Σ: the spectral-radius rule.
         let zero = DMatrix::zeros(2, 2);
-        assert_eq!(spacing(&f, &zero, 0.5, 10_000), 7);
+        assert_eq!(spacing(&f, zero.cholesky().as_ref(), 0.5, 10_000), 7);
     }
 
     /// Scalar closed form: F = 0.5, Σ = 1, e₀ = 10: (10·0.5^k)² ≤ 0.01·1
