@@ -53,6 +53,7 @@
 //! the 8-state dispatch. Tables of a large class are built on a thread of
 //! their own with a stack sized for them, then live on the heap.
 
+pub mod band;
 pub mod config;
 mod engine;
 mod error;
@@ -303,7 +304,7 @@ pub fn run_once(
         .runs
         .first()
         .ok_or_else(|| SimError::Failure("the f64 observer did not run".into()))?;
-    let f64_dev = metrics::deviation(design, &first.peaks, reference_run, reference_run);
+    let f64_dev = band::deviation(design, &first.peaks, reference_run, reference_run);
     let residual = first
         .running
         .first()
@@ -319,11 +320,11 @@ pub fn run_once(
     let mut judged = Vec::new();
     let mut settling = Vec::new();
     for run in &first.runs {
-        let deviation = metrics::deviation(design, &first.peaks, run, reference_run);
+        let deviation = band::deviation(design, &first.peaks, run, reference_run);
         let band = opts
             .tolerance
             .clone()
-            .unwrap_or_else(|| metrics::band(reference, &deviation, &f64_dev, &residual));
+            .unwrap_or_else(|| band::band(reference, &deviation, &f64_dev, &residual));
         settling.push(Settling::new(
             band.clone(),
             reference,
@@ -361,7 +362,7 @@ pub fn run_once(
         formats,
         skipped,
         tolerance,
-        tolerance_source: metrics::tolerance_source(design, opts, reference),
+        tolerance_source: band::tolerance_source(design, opts, reference),
         perturbation: plant.perturbation,
         warnings: first.warnings,
     })
